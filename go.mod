@@ -1,0 +1,3 @@
+module splitledger
+
+go 1.26.8

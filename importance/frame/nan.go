@@ -1,0 +1,5 @@
+package frame
+
+import "math"
+
+func nan() float64 { return math.NaN() }
