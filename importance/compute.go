@@ -1,0 +1,344 @@
+package importance
+
+import (
+	"splitledger/importance/forest"
+	"splitledger/importance/metrics"
+	"splitledger/importance/parallel"
+)
+
+// worker holds one goroutine's scratch space.
+type worker struct {
+	x        []float64
+	margin   []float64
+	zero     []float64
+	delta    []float64
+	pert     []float64
+	builders []*stepBuilder
+	pathSeen []int32 // stamp per feature: tree index + 1 when met on the path
+	onPath   []int32 // features met on the current tree's path, in order
+	present  []bool
+	tests    []float64
+	loss     *rowLoss
+	walker   freeWalker
+	// shuffled metrics: margins of the chunk's rows, per perturbation
+	// layout [row][feature][0:miss 1:freeze 2..: repeats] (K=1 models)
+	chunkScores []float64
+	chunkBase   []float64
+	ndcg        metrics.NDCGScratch
+	groupS      []float64
+	groupL      []float64
+}
+
+func (r *run) newWorker() *worker {
+	nf := r.e.NumFeatures()
+	k := r.e.NumClass
+	w := &worker{
+		x:        make([]float64, nf),
+		margin:   make([]float64, k),
+		zero:     make([]float64, k),
+		delta:    make([]float64, k),
+		pert:     make([]float64, k),
+		builders: make([]*stepBuilder, nf),
+		pathSeen: make([]int32, nf),
+		present:  make([]bool, nf),
+		tests:    make([]float64, nf),
+		loss:     newRowLoss(r.metric, r.e),
+	}
+	for j := range w.builders {
+		w.builders[j] = newStepBuilder(&r.vc[j], k)
+	}
+	w.walker = freeWalker{e: r.e, splits: r.splits, x: w.x}
+	return w
+}
+
+// compute fills r.sums: one pass over the rows, chunk by chunk.
+func (r *run) compute() {
+	workers := make(chan *worker, parallel.Workers(r.cfg.Workers))
+	parallel.Chunks(len(r.chunks), 1, r.cfg.Workers, func(c, _, _ int) {
+		var w *worker
+		select {
+		case w = <-workers:
+		default:
+			w = r.newWorker()
+		}
+		r.chunk(w, r.chunks[c][0], r.chunks[c][1])
+		workers <- w
+	})
+}
+
+// perturbations per feature for shuffled metrics: missing, freeze, repeats
+func (r *run) nPert() int { return 2 + len(r.perms) }
+
+// chunk processes units [u0, u1).
+func (r *run) chunk(w *worker, u0, u1 int) {
+	e, f, lay := r.e, r.f, &r.lay
+	nf := e.NumFeatures()
+	K := e.NumClass
+	shuffled := !r.metric.additive()
+	np := r.nPert()
+	if shuffled {
+		rows := 0
+		for u := u0; u < u1; u++ {
+			rows += len(r.units[u])
+		}
+		if cap(w.chunkScores) < rows*nf*np {
+			w.chunkScores = make([]float64, rows*nf*np)
+			w.chunkBase = make([]float64, rows)
+		}
+		w.chunkScores = w.chunkScores[:rows*nf*np]
+		w.chunkBase = w.chunkBase[:rows]
+	}
+	local := 0
+	for u := u0; u < u1; u++ {
+		out := r.sums[u*lay.cols : (u+1)*lay.cols]
+		for _, row := range r.units[u] {
+			wt := 1.0
+			if f.Weight != nil {
+				wt = f.Weight[row]
+			}
+			y := 0.0
+			if f.Label != nil {
+				y = f.Label[row]
+			}
+			r.scoreRow(w, int(row))
+			out[lay.denRows] += wt
+			for j := 0; j < nf; j++ {
+				if w.present[j] {
+					out[lay.path+j] += wt
+				}
+				out[lay.tests+j] += wt * w.tests[j]
+			}
+			if r.shapAt != nil && r.shapAt[row] >= 0 {
+				abs := r.shapAbs[r.shapAt[row] : int(r.shapAt[row])+nf]
+				out[lay.denSHAP] += wt
+				for j := 0; j < nf; j++ {
+					out[lay.shap+j] += wt * abs[j]
+				}
+			}
+			if !shuffled {
+				r.additiveRow(w, out, wt, y)
+				continue
+			}
+			// shuffled metrics: keep the perturbed margins of this row
+			w.chunkBase[local] = w.margin[0]
+			base := local * nf * np
+			for j := 0; j < nf; j++ {
+				s := w.chunkScores[base+j*np : base+(j+1)*np]
+				b := w.builders[j]
+				if !b.used {
+					for i := range s {
+						s[i] = w.margin[0]
+					}
+					continue
+				}
+				sf := &b.sf
+				vc := &r.vc[j]
+				s[0] = w.margin[0] + sf.at1(vc, vc.missingClass())
+				s[1] = w.margin[0] + sf.at1(vc, r.medianC[j])
+				cl := r.classOf[j]
+				for k, p := range r.perms {
+					s[2+k] = w.margin[0] + sf.at1(vc, int(cl[p[row]]))
+				}
+			}
+			if r.aucScores != nil {
+				r.aucBase[row] = w.margin[0]
+				for j := 0; j < nf; j++ {
+					s := w.chunkScores[base+j*np : base+(j+1)*np]
+					for i, v := range s {
+						r.aucScores[j*np+i][row] = v
+					}
+				}
+			}
+			local++
+		}
+		if shuffled && r.metric == MetricNDCG {
+			r.ndcgUnit(w, u, out, local-len(r.units[u]))
+		}
+	}
+	_ = K
+}
+
+// scoreRow walks every tree for one row: the row's margin, its path usage,
+// and every feature's step function (free walks of the features met on the
+// row's own paths only: other features cannot move this tree's leaf).
+func (r *run) scoreRow(w *worker, row int) {
+	e := r.e
+	for j := range w.x {
+		w.x[j] = r.cols[j][row]
+		w.present[j] = false
+		w.tests[j] = 0
+		w.pathSeen[j] = 0
+		w.builders[j].start(int32(row))
+	}
+	copy(w.margin, e.BaseMargin)
+	for ti := range e.Trees {
+		t := &e.Trees[ti]
+		ns := r.splits[ti]
+		stamp := int32(ti + 1)
+		w.onPath = w.onPath[:0]
+		// own path
+		i := int32(0)
+		for {
+			n := &t.Nodes[i]
+			if n.Flags&forest.FlagLeaf != 0 {
+				break
+			}
+			fj := n.Feature
+			w.tests[fj]++
+			if w.pathSeen[fj] != stamp {
+				w.pathSeen[fj] = stamp
+				w.onPath = append(w.onPath, i)
+			}
+			i = forest.Next(t, n, w.x[fj], e.Rule)
+		}
+		own := t.Value[i]
+		w.margin[t.Class] += own
+		for _, start := range w.onPath {
+			fj := t.Nodes[start].Feature
+			w.present[fj] = true
+			b := w.builders[fj]
+			vc := &r.vc[fj]
+			if vc.categorical {
+				all := make([]uint64, (vc.n+63)/64)
+				for c := 0; c < vc.n; c++ {
+					all[c/64] |= 1 << (c % 64)
+				}
+				w.walker.walkSet(t, ns, fj, start, all, own, b)
+			} else {
+				w.walker.walkNumeric(t, ns, fj, start, 0, int32(vc.nb), true, vc.zeroMode, own, b)
+			}
+		}
+	}
+	for _, b := range w.builders {
+		if b.used {
+			b.finish()
+		}
+	}
+}
+
+// additiveRow adds one row's metric terms: base, and per feature the exact
+// permutation expectation, the missing-break and the freeze values.
+func (r *run) additiveRow(w *worker, out []float64, wt, y float64) {
+	lay := &r.lay
+	K := r.e.NumClass
+	clear(w.zero)
+	l0 := w.loss.eval(w.margin, w.zero, y)
+	out[lay.denMetric] += wt
+	out[lay.base] += wt * l0
+	for j := range w.builders {
+		b := w.builders[j]
+		d := out[lay.drop+3*j : lay.drop+3*j+3]
+		if !b.used {
+			d[0] += wt * l0
+			d[1] += wt * l0
+			d[2] += wt * l0
+			continue
+		}
+		vc := &r.vc[j]
+		sf := &b.sf
+		// missing-break and freeze
+		d[1] += wt * w.loss.eval(w.margin, sf.at(vc, vc.missingClass(), K, w.delta), y)
+		d[2] += wt * w.loss.eval(w.margin, sf.at(vc, r.medianC[j], K, w.delta), y)
+		// exact permutation expectation: sum over classes of mass x loss
+		exp := 0.0
+		if vc.categorical {
+			for c, p := range r.pClass[j] {
+				if p > 0 {
+					exp += p * w.loss.eval(w.margin, sf.at(vc, c, K, w.delta), y)
+				}
+			}
+		} else {
+			pre := r.prefix[j]
+			prev := int32(0)
+			cur := w.zero
+			for s, start := range sf.starts {
+				if m := pre[start] - pre[prev]; m > 0 {
+					exp += m * w.loss.eval(w.margin, cur, y)
+				}
+				prev = start
+				cur = sf.deltas[s*K : (s+1)*K]
+			}
+			if m := pre[vc.nb] - pre[prev]; m > 0 {
+				exp += m * w.loss.eval(w.margin, cur, y)
+			}
+			if p := r.pClass[j][0]; p > 0 {
+				exp += p * w.loss.eval(w.margin, sf.missing, y)
+			}
+			if len(r.pClass[j]) > 1 {
+				if p := r.pClass[j][1]; p > 0 {
+					exp += p * w.loss.eval(w.margin, sf.zero, y)
+				}
+			}
+		}
+		d[0] += wt * exp
+	}
+}
+
+// ndcgUnit computes one query group's NDCG terms from the chunk's stored
+// perturbed margins; first is the group's first local row.
+func (r *run) ndcgUnit(w *worker, u int, out []float64, first int) {
+	rows := r.units[u]
+	n := len(rows)
+	nf := r.e.NumFeatures()
+	np := r.nPert()
+	lay := &r.lay
+	if cap(w.groupS) < n {
+		w.groupS = make([]float64, n)
+		w.groupL = make([]float64, n)
+	}
+	s, lab := w.groupS[:n], w.groupL[:n]
+	wt := 1.0
+	if r.f.Weight != nil {
+		wt = 0
+		for _, row := range rows {
+			wt += r.f.Weight[row]
+		}
+		wt /= float64(n)
+	}
+	for i, row := range rows {
+		lab[i] = r.f.Label[row]
+	}
+	ideal := metrics.IdealDCG(lab, r.k, r.cfg.Gain, &w.ndcg)
+	if !(ideal > 0) {
+		if r.cfg.NoRelevant == metrics.NoRelevantZero {
+			r.valid[u] = true
+			out[lay.denMetric] += wt
+		}
+		return
+	}
+	r.valid[u] = true
+	out[lay.denMetric] += wt
+	dcg := func() float64 { return metrics.DCG(s, lab, r.k, r.cfg.Gain, &w.ndcg) / ideal }
+	copy(s, w.chunkBase[first:first+n])
+	base := dcg()
+	out[lay.base] += wt * base
+	for j := 0; j < nf; j++ {
+		d := out[lay.drop+3*j : lay.drop+3*j+3]
+		vals := [3]float64{}
+		for p := 0; p < np; p++ {
+			same := true
+			for i := 0; i < n; i++ {
+				v := w.chunkScores[(first+i)*nf*np+j*np+p]
+				if v != w.chunkBase[first+i] {
+					same = false
+				}
+				s[i] = v
+			}
+			v := base
+			if !same {
+				v = dcg()
+			}
+			switch p {
+			case 0:
+				vals[1] = v
+			case 1:
+				vals[2] = v
+			default:
+				vals[0] += v / float64(np-2)
+			}
+		}
+		d[0] += wt * vals[0]
+		d[1] += wt * vals[1]
+		d[2] += wt * vals[2]
+	}
+}

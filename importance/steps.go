@@ -1,0 +1,265 @@
+package importance
+
+import (
+	"math/bits"
+	"slices"
+
+	"splitledger/importance/forest"
+)
+
+// stepFunction is one row's margin change as a function of one feature's
+// value class, relative to the row's own score (so the row's own class maps
+// to zero). Numeric classes are held as sorted segment starts with the
+// change on each segment; the missing and zero classes separately.
+type stepFunction struct {
+	// numeric mode
+	starts []int32   // segment start classes, ascending
+	deltas []float64 // K values per segment
+	// special classes (numeric mode)
+	missing, zero []float64 // K values each
+	// categorical mode: K values per class
+	dense []float64
+}
+
+// stepBuilder accumulates the pieces that the free walks of one row emit for
+// one feature, then turns them into a stepFunction. It is reused row after
+// row; all buffers stay allocated.
+type stepBuilder struct {
+	vc      *valueClasses
+	k       int
+	diff    []float64 // numeric: (nb+1)*k difference array
+	stamp   []int32   // numeric: row stamp per bin, to collect touched bins once
+	touched []int32
+	row     int32
+	used    bool // some piece was emitted for the current row
+	sf      stepFunction
+}
+
+func newStepBuilder(vc *valueClasses, k int) *stepBuilder {
+	b := &stepBuilder{vc: vc, k: k, row: -1}
+	if vc.categorical {
+		b.sf.dense = make([]float64, vc.n*k)
+	} else {
+		b.diff = make([]float64, (vc.nb+1)*k)
+		b.stamp = make([]int32, vc.nb+1)
+		for i := range b.stamp {
+			b.stamp[i] = -1
+		}
+		b.sf.missing = make([]float64, k)
+		b.sf.zero = make([]float64, k)
+	}
+	return b
+}
+
+// start prepares the builder for a new row.
+func (b *stepBuilder) start(row int32) {
+	b.row = row
+	b.used = false
+	b.touched = b.touched[:0]
+	if b.vc.categorical {
+		clear(b.sf.dense)
+	} else {
+		clear(b.sf.missing)
+		clear(b.sf.zero)
+	}
+}
+
+func (b *stepBuilder) touch(bin int32) {
+	if b.stamp[bin] != b.row {
+		b.stamp[bin] = b.row
+		b.touched = append(b.touched, bin)
+	}
+}
+
+// addNumeric adds delta d (for output class cls) on classes [lo, hi) and,
+// when flagged, the missing and zero classes.
+func (b *stepBuilder) addNumeric(lo, hi int32, m, z bool, cls int, d float64) {
+	b.used = true
+	if lo < hi {
+		b.diff[int(lo)*b.k+cls] += d
+		b.diff[int(hi)*b.k+cls] -= d
+		b.touch(lo)
+		b.touch(hi)
+	}
+	if m {
+		b.sf.missing[cls] += d
+	}
+	if z {
+		b.sf.zero[cls] += d
+	}
+}
+
+// addSet adds d to every class whose bit is set.
+func (b *stepBuilder) addSet(set []uint64, cls int, d float64) {
+	b.used = true
+	for w, word := range set {
+		for word != 0 {
+			c := w*64 + bits.TrailingZeros64(word)
+			b.sf.dense[c*b.k+cls] += d
+			word &= word - 1
+		}
+	}
+}
+
+// finish turns the accumulated pieces into the row's step function and
+// clears the difference array for the next row.
+func (b *stepBuilder) finish() *stepFunction {
+	if b.vc.categorical {
+		return &b.sf
+	}
+	slices.Sort(b.touched)
+	k := b.k
+	b.sf.starts = b.sf.starts[:0]
+	b.sf.deltas = b.sf.deltas[:0]
+	cum := make([]float64, k)
+	if k == 1 {
+		c := 0.0
+		for _, bin := range b.touched {
+			c += b.diff[bin]
+			b.diff[bin] = 0
+			b.sf.starts = append(b.sf.starts, bin)
+			b.sf.deltas = append(b.sf.deltas, c)
+		}
+		return &b.sf
+	}
+	for _, bin := range b.touched {
+		for c := 0; c < k; c++ {
+			cum[c] += b.diff[int(bin)*k+c]
+			b.diff[int(bin)*k+c] = 0
+		}
+		b.sf.starts = append(b.sf.starts, bin)
+		b.sf.deltas = append(b.sf.deltas, cum...)
+	}
+	return &b.sf
+}
+
+// at writes the margin change for class c into dst (len k) and returns it.
+func (s *stepFunction) at(vc *valueClasses, c int, k int, dst []float64) []float64 {
+	if vc.categorical {
+		copy(dst, s.dense[c*k:(c+1)*k])
+		return dst
+	}
+	switch {
+	case c == vc.nb:
+		copy(dst, s.missing)
+		return dst
+	case c == vc.nb+1:
+		copy(dst, s.zero)
+		return dst
+	}
+	// last segment start <= c
+	i, found := slices.BinarySearch(s.starts, int32(c))
+	if !found {
+		i--
+	}
+	if i < 0 {
+		clear(dst)
+		return dst
+	}
+	copy(dst, s.deltas[i*k:(i+1)*k])
+	return dst
+}
+
+// at1 is at for single-output models.
+func (s *stepFunction) at1(vc *valueClasses, c int) float64 {
+	if vc.categorical {
+		return s.dense[c]
+	}
+	switch {
+	case c == vc.nb:
+		return s.missing[0]
+	case c == vc.nb+1:
+		return s.zero[0]
+	}
+	i, found := slices.BinarySearch(s.starts, int32(c))
+	if !found {
+		i--
+	}
+	if i < 0 {
+		return 0
+	}
+	return s.deltas[i]
+}
+
+// freeWalker walks one tree for one row with one feature left free: both
+// branches at that feature's splits, the row's own branch elsewhere.
+type freeWalker struct {
+	e      *forest.Ensemble
+	splits [][]nodeSplit
+	x      []float64 // the row, by feature
+}
+
+// walkNumeric explores node i with class state [lo, hi) + missing/zero
+// flags and emits (state, leaf value - own) pieces.
+func (w *freeWalker) walkNumeric(t *forest.Tree, ns []nodeSplit, f int32, i int32, lo, hi int32, m, z bool, own float64, b *stepBuilder) {
+	for {
+		n := &t.Nodes[i]
+		if n.Flags&forest.FlagLeaf != 0 {
+			if d := t.Value[i] - own; d != 0 {
+				b.addNumeric(lo, hi, m, z, t.Class, d)
+			}
+			return
+		}
+		if n.Feature != f {
+			i = forest.Next(t, n, w.x[n.Feature], w.e.Rule)
+			continue
+		}
+		s := &ns[i]
+		llo, lhi := lo, min(hi, s.cut)
+		rlo, rhi := max(lo, s.cut), hi
+		lm, rm := m && s.missingLeft, m && !s.missingLeft
+		lz, rz := z && s.zeroLeft, z && !s.zeroLeft
+		lok := llo < lhi || lm || lz
+		rok := rlo < rhi || rm || rz
+		switch {
+		case lok && rok:
+			w.walkNumeric(t, ns, f, n.Left, llo, lhi, lm, lz, own, b)
+			i, lo, hi, m, z = n.Right, rlo, rhi, rm, rz
+		case lok:
+			i, lo, hi, m, z = n.Left, llo, lhi, lm, lz
+		case rok:
+			i, lo, hi, m, z = n.Right, rlo, rhi, rm, rz
+		default:
+			return
+		}
+	}
+}
+
+// walkSet is walkNumeric for categorical features: the state is a bitset of
+// classes.
+func (w *freeWalker) walkSet(t *forest.Tree, ns []nodeSplit, f int32, i int32, set []uint64, own float64, b *stepBuilder) {
+	for {
+		n := &t.Nodes[i]
+		if n.Flags&forest.FlagLeaf != 0 {
+			if d := t.Value[i] - own; d != 0 {
+				b.addSet(set, t.Class, d)
+			}
+			return
+		}
+		if n.Feature != f {
+			i = forest.Next(t, n, w.x[n.Feature], w.e.Rule)
+			continue
+		}
+		ls := ns[i].leftSet
+		left := make([]uint64, len(set))
+		right := make([]uint64, len(set))
+		lany, rany := false, false
+		for j := range set {
+			left[j] = set[j] & ls[j]
+			right[j] = set[j] &^ ls[j]
+			lany = lany || left[j] != 0
+			rany = rany || right[j] != 0
+		}
+		switch {
+		case lany && rany:
+			w.walkSet(t, ns, f, n.Left, left, own, b)
+			i, set = n.Right, right
+		case lany:
+			i, set = n.Left, left
+		case rany:
+			i, set = n.Right, right
+		default:
+			return
+		}
+	}
+}
