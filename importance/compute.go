@@ -15,7 +15,8 @@ type worker struct {
 	pert     []float64
 	builders []*stepBuilder
 	pathSeen []int32 // stamp per feature: tree index + 1 when met on the path
-	onPath   []int32 // features met on the current tree's path, in order
+	onPath   []int32 // first path node of each feature met on the current tree's path, in order
+	path     []int32 // internal nodes of the current tree's own path, root first
 	present  []bool
 	tests    []float64
 	loss     *rowLoss
@@ -47,7 +48,7 @@ func (r *run) newWorker() *worker {
 	for j := range w.builders {
 		w.builders[j] = newStepBuilder(&r.vc[j], k)
 	}
-	w.walker = freeWalker{e: r.e, splits: r.splits, x: w.x}
+	w.walker = freeWalker{e: r.e, splits: r.splits, x: w.x, xgb: r.e.Rule == forest.LessThanFloat32}
 	return w
 }
 
@@ -171,11 +172,13 @@ func (r *run) scoreRow(w *worker, row int) {
 		w.builders[j].start(int32(row))
 	}
 	copy(w.margin, e.BaseMargin)
+	xgb := e.Rule == forest.LessThanFloat32
 	for ti := range e.Trees {
 		t := &e.Trees[ti]
 		ns := r.splits[ti]
 		stamp := int32(ti + 1)
 		w.onPath = w.onPath[:0]
+		w.path = w.path[:0]
 		// own path
 		i := int32(0)
 		for {
@@ -184,12 +187,21 @@ func (r *run) scoreRow(w *worker, row int) {
 				break
 			}
 			fj := n.Feature
+			w.path = append(w.path, i)
 			w.tests[fj]++
 			if w.pathSeen[fj] != stamp {
 				w.pathSeen[fj] = stamp
 				w.onPath = append(w.onPath, i)
 			}
-			i = forest.Next(t, n, w.x[fj], e.Rule)
+			x := w.x[fj]
+			switch {
+			case n.Flags&forest.SlowFlags != 0 || x != x:
+				i = forest.Next(t, n, x, e.Rule)
+			case xgb && float32(x) < float32(n.Threshold), !xgb && x <= n.Threshold:
+				i = n.Left
+			default:
+				i = n.Right
+			}
 		}
 		own := t.Value[i]
 		w.margin[t.Class] += own
@@ -205,7 +217,7 @@ func (r *run) scoreRow(w *worker, row int) {
 				}
 				w.walker.walkSet(t, ns, fj, start, all, own, b)
 			} else {
-				w.walker.walkNumeric(t, ns, fj, start, 0, int32(vc.nb), true, vc.zeroMode, own, b)
+				w.walkPathNumeric(t, ns, fj, i, vc, own, b)
 			}
 		}
 	}
@@ -340,5 +352,43 @@ func (r *run) ndcgUnit(w *worker, u int, out []float64, first int) {
 		d[0] += wt * vals[0]
 		d[1] += wt * vals[1]
 		d[2] += wt * vals[2]
+	}
+}
+
+// walkPathNumeric emits one tree's pieces for feature f: along the row's own
+// path only the nodes testing f matter (elsewhere the row follows its own
+// branch whatever f's value), so the walk jumps from one f-node of the path
+// to the next, and only the branches that leave the path are walked. Classes
+// that stay on the path end at the row's own leaf (change 0: nothing to add).
+func (w *worker) walkPathNumeric(t *forest.Tree, ns []nodeSplit, f int32, ownLeaf int32, vc *valueClasses, own float64, b *stepBuilder) {
+	lo, hi, m, z := int32(0), int32(vc.nb), true, vc.zeroMode
+	for p, i := range w.path {
+		n := &t.Nodes[i]
+		if n.Feature != f {
+			continue
+		}
+		next := ownLeaf
+		if p+1 < len(w.path) {
+			next = w.path[p+1]
+		}
+		s := &ns[i]
+		llo, lhi := lo, min(hi, s.cut)
+		rlo, rhi := max(lo, s.cut), hi
+		lm, rm := m && s.missingLeft, m && !s.missingLeft
+		lz, rz := z && s.zeroLeft, z && !s.zeroLeft
+		if next == n.Left {
+			if rlo < rhi || rm || rz {
+				w.walker.walkNumeric(t, ns, f, n.Right, rlo, rhi, rm, rz, own, b)
+			}
+			lo, hi, m, z = llo, lhi, lm, lz
+		} else {
+			if llo < lhi || lm || lz {
+				w.walker.walkNumeric(t, ns, f, n.Left, llo, lhi, lm, lz, own, b)
+			}
+			lo, hi, m, z = rlo, rhi, rm, rz
+		}
+		if !(lo < hi || m || z) {
+			return
+		}
 	}
 }

@@ -25,14 +25,13 @@ type stepFunction struct {
 // one feature, then turns them into a stepFunction. It is reused row after
 // row; all buffers stay allocated.
 type stepBuilder struct {
-	vc      *valueClasses
-	k       int
-	diff    []float64 // numeric: (nb+1)*k difference array
-	stamp   []int32   // numeric: row stamp per bin, to collect touched bins once
-	touched []int32
-	row     int32
-	used    bool // some piece was emitted for the current row
-	sf      stepFunction
+	vc   *valueClasses
+	k    int
+	diff []float64 // numeric: (nb+1)*k difference array
+	mark []uint64  // numeric: bit per bin touched this row (bins come out sorted)
+	row  int32
+	used bool // some piece was emitted for the current row
+	sf   stepFunction
 }
 
 func newStepBuilder(vc *valueClasses, k int) *stepBuilder {
@@ -41,10 +40,7 @@ func newStepBuilder(vc *valueClasses, k int) *stepBuilder {
 		b.sf.dense = make([]float64, vc.n*k)
 	} else {
 		b.diff = make([]float64, (vc.nb+1)*k)
-		b.stamp = make([]int32, vc.nb+1)
-		for i := range b.stamp {
-			b.stamp[i] = -1
-		}
+		b.mark = make([]uint64, (vc.nb+1+63)/64)
 		b.sf.missing = make([]float64, k)
 		b.sf.zero = make([]float64, k)
 	}
@@ -55,7 +51,6 @@ func newStepBuilder(vc *valueClasses, k int) *stepBuilder {
 func (b *stepBuilder) start(row int32) {
 	b.row = row
 	b.used = false
-	b.touched = b.touched[:0]
 	if b.vc.categorical {
 		clear(b.sf.dense)
 	} else {
@@ -65,10 +60,7 @@ func (b *stepBuilder) start(row int32) {
 }
 
 func (b *stepBuilder) touch(bin int32) {
-	if b.stamp[bin] != b.row {
-		b.stamp[bin] = b.row
-		b.touched = append(b.touched, bin)
-	}
+	b.mark[bin>>6] |= 1 << (bin & 63)
 }
 
 // addNumeric adds delta d (for output class cls) on classes [lo, hi) and,
@@ -107,28 +99,37 @@ func (b *stepBuilder) finish() *stepFunction {
 	if b.vc.categorical {
 		return &b.sf
 	}
-	slices.Sort(b.touched)
 	k := b.k
 	b.sf.starts = b.sf.starts[:0]
 	b.sf.deltas = b.sf.deltas[:0]
-	cum := make([]float64, k)
 	if k == 1 {
 		c := 0.0
-		for _, bin := range b.touched {
-			c += b.diff[bin]
-			b.diff[bin] = 0
-			b.sf.starts = append(b.sf.starts, bin)
-			b.sf.deltas = append(b.sf.deltas, c)
+		for wi, word := range b.mark {
+			for word != 0 {
+				bin := int32(wi*64 + bits.TrailingZeros64(word))
+				word &= word - 1
+				c += b.diff[bin]
+				b.diff[bin] = 0
+				b.sf.starts = append(b.sf.starts, bin)
+				b.sf.deltas = append(b.sf.deltas, c)
+			}
+			b.mark[wi] = 0
 		}
 		return &b.sf
 	}
-	for _, bin := range b.touched {
-		for c := 0; c < k; c++ {
-			cum[c] += b.diff[int(bin)*k+c]
-			b.diff[int(bin)*k+c] = 0
+	cum := make([]float64, k)
+	for wi, word := range b.mark {
+		for word != 0 {
+			bin := int32(wi*64 + bits.TrailingZeros64(word))
+			word &= word - 1
+			for c := 0; c < k; c++ {
+				cum[c] += b.diff[int(bin)*k+c]
+				b.diff[int(bin)*k+c] = 0
+			}
+			b.sf.starts = append(b.sf.starts, bin)
+			b.sf.deltas = append(b.sf.deltas, cum...)
 		}
-		b.sf.starts = append(b.sf.starts, bin)
-		b.sf.deltas = append(b.sf.deltas, cum...)
+		b.mark[wi] = 0
 	}
 	return &b.sf
 }
@@ -187,6 +188,7 @@ type freeWalker struct {
 	e      *forest.Ensemble
 	splits [][]nodeSplit
 	x      []float64 // the row, by feature
+	xgb    bool      // the ensemble compares float32(x) < threshold
 }
 
 // walkNumeric explores node i with class state [lo, hi) + missing/zero
@@ -201,7 +203,15 @@ func (w *freeWalker) walkNumeric(t *forest.Tree, ns []nodeSplit, f int32, i int3
 			return
 		}
 		if n.Feature != f {
-			i = forest.Next(t, n, w.x[n.Feature], w.e.Rule)
+			x := w.x[n.Feature]
+			switch {
+			case n.Flags&forest.SlowFlags != 0 || x != x:
+				i = forest.Next(t, n, x, w.e.Rule)
+			case w.xgb && float32(x) < float32(n.Threshold), !w.xgb && x <= n.Threshold:
+				i = n.Left
+			default:
+				i = n.Right
+			}
 			continue
 		}
 		s := &ns[i]

@@ -119,8 +119,9 @@ const (
 	FlagInSetLeft
 )
 
-// ZeroThreshold is LightGBM's bound below which a value counts as zero.
-const ZeroThreshold = 1e-35
+// ZeroThreshold is LightGBM's bound below which a value counts as zero:
+// kZeroThreshold is the float32 1e-35f widened to double.
+var ZeroThreshold = float64(float32(1e-35))
 
 // Node is one node of a tree. Internal nodes test Feature; leaves carry their
 // output in Tree.Value.
@@ -206,9 +207,30 @@ func (e *Ensemble) Index() {
 	}
 }
 
+// SlowFlags mark nodes that need more than a threshold test. Hot loops
+// test `n.Flags&SlowFlags == 0 && x == x` and compare in place (see
+// Ensemble.Margins), calling Next otherwise.
+const SlowFlags = FlagCategorical | FlagNaNAsZero | FlagZeroIsMissing
+
 // Next returns the child that value x takes at internal node n under rule.
 // NaN means missing.
 func Next(t *Tree, n *Node, x float64, rule Rule) int32 {
+	if n.Flags&SlowFlags == 0 && x == x {
+		if rule == LessThanFloat32 {
+			if float32(x) < float32(n.Threshold) {
+				return n.Left
+			}
+			return n.Right
+		}
+		if x <= n.Threshold {
+			return n.Left
+		}
+		return n.Right
+	}
+	return nextSlow(t, n, x, rule)
+}
+
+func nextSlow(t *Tree, n *Node, x float64, rule Rule) int32 {
 	if x != x { // NaN
 		if n.Flags&FlagNaNAsZero == 0 {
 			if n.Flags&FlagDefaultLeft != 0 {
@@ -225,7 +247,11 @@ func Next(t *Tree, n *Node, x float64, rule Rule) int32 {
 		return n.Right
 	}
 	if n.Flags&FlagCategorical != 0 {
-		in := InSet(t.CatSets[n.CatSet], x)
+		c := x
+		if n.Flags&FlagInSetLeft != 0 && x > -1 && x < 0 {
+			c = 0 // LightGBM truncates toward zero: (-1, 0) is category 0
+		}
+		in := InSet(t.CatSets[n.CatSet], c)
 		if in == (n.Flags&FlagInSetLeft != 0) {
 			return n.Left
 		}
