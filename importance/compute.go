@@ -21,6 +21,7 @@ type worker struct {
 	tests    []float64
 	loss     *rowLoss
 	walker   freeWalker
+	col      []float64 // additive metrics: the chunk's per-class loss sums (see run.colSums)
 	// shuffled metrics: margins of the chunk's rows, per perturbation
 	// layout [row][feature][0:miss 1:freeze 2..: repeats] (K=1 models)
 	chunkScores []float64
@@ -61,6 +62,10 @@ func (r *run) compute() {
 		case w = <-workers:
 		default:
 			w = r.newWorker()
+		}
+		if r.colSums != nil {
+			r.colSums[c] = make([]float64, r.colOff[len(r.colOff)-1])
+			w.col = r.colSums[c]
 		}
 		r.chunk(w, r.chunks[c][0], r.chunks[c][1])
 		workers <- w
@@ -240,10 +245,12 @@ func (r *run) additiveRow(w *worker, out []float64, wt, y float64) {
 	for j := range w.builders {
 		b := w.builders[j]
 		d := out[lay.drop+3*j : lay.drop+3*j+3]
+		col := w.col[r.colOff[j]:r.colOff[j+1]]
 		if !b.used {
 			d[0] += wt * l0
 			d[1] += wt * l0
 			d[2] += wt * l0
+			col[len(col)-1] += wt * l0
 			continue
 		}
 		vc := &r.vc[j]
@@ -256,29 +263,39 @@ func (r *run) additiveRow(w *worker, out []float64, wt, y float64) {
 		if vc.categorical {
 			for c, p := range r.pClass[j] {
 				if p > 0 {
-					exp += p * w.loss.eval(w.margin, sf.at(vc, c, K, w.delta), y)
+					l := w.loss.eval(w.margin, sf.at(vc, c, K, w.delta), y)
+					exp += p * l
+					col[c] += wt * l
 				}
 			}
 		} else {
 			pre := r.prefix[j]
 			prev := int32(0)
 			cur := w.zero
-			for s, start := range sf.starts {
-				if m := pre[start] - pre[prev]; m > 0 {
-					exp += m * w.loss.eval(w.margin, cur, y)
+			seg := func(a, b int32, delta []float64) {
+				if m := pre[b] - pre[a]; m > 0 {
+					l := w.loss.eval(w.margin, delta, y)
+					exp += m * l
+					col[a] += wt * l
+					col[b] -= wt * l
 				}
+			}
+			for s, start := range sf.starts {
+				seg(prev, start, cur)
 				prev = start
 				cur = sf.deltas[s*K : (s+1)*K]
 			}
-			if m := pre[vc.nb] - pre[prev]; m > 0 {
-				exp += m * w.loss.eval(w.margin, cur, y)
-			}
+			seg(prev, int32(vc.nb), cur)
 			if p := r.pClass[j][0]; p > 0 {
-				exp += p * w.loss.eval(w.margin, sf.missing, y)
+				l := w.loss.eval(w.margin, sf.missing, y)
+				exp += p * l
+				col[vc.nb+1] += wt * l
 			}
 			if len(r.pClass[j]) > 1 {
 				if p := r.pClass[j][1]; p > 0 {
-					exp += p * w.loss.eval(w.margin, sf.zero, y)
+					l := w.loss.eval(w.margin, sf.zero, y)
+					exp += p * l
+					col[vc.nb+2] += wt * l
 				}
 			}
 		}
@@ -391,4 +408,77 @@ func (w *worker) walkPathNumeric(t *forest.Tree, ns []nodeSplit, f int32, ownLea
 			return
 		}
 	}
+}
+
+// linearizePermutation adds to every unit's permutation terms the second
+// half of the V-statistic's influence function. The exact permutation
+// expectation is theta = (1/W²) Σ_r Σ_s w_r w_s L(r, x_s): row r's loss
+// with row s's value of the feature. Reweighting only the first index (as
+// the per-row terms alone would) ignores that a bootstrap replicate also
+// changes which values are drawn; the first-order (Hoeffding) expansion
+// gives each row the influence A_r + B_r − theta, where
+// A_r = Σ_s w_s L(r, x_s)/W is its own expected loss and
+// B_r = Σ_s w_s L(s, x_r)/W the loss its value causes in the others (the
+// column sums gathered per value class during the pass). The point value is
+// unchanged (the added terms sum to 0); the intervals then reflect both.
+func (r *run) linearizePermutation() {
+	nf := r.lay.nf
+	cols := r.lay.cols
+	total := make([]float64, r.colOff[nf])
+	for _, c := range r.colSums { // chunk order: deterministic
+		for i, v := range c {
+			total[i] += v
+		}
+	}
+	r.colSums = nil
+	wTot, theta := 0.0, make([]float64, nf)
+	for u := range r.units {
+		wTot += r.sums[u*cols+r.lay.denMetric]
+		for j := 0; j < nf; j++ {
+			theta[j] += r.sums[u*cols+r.lay.drop+3*j]
+		}
+	}
+	if !(wTot > 0) {
+		return
+	}
+	// per feature: column loss sum per class, divided by W
+	colMean := make([][]float64, nf)
+	for j := 0; j < nf; j++ {
+		theta[j] /= wTot
+		vc := &r.vc[j]
+		t := total[r.colOff[j]:r.colOff[j+1]]
+		constant := t[len(t)-1]
+		m := make([]float64, vc.n)
+		if vc.categorical {
+			for c := range m {
+				m[c] = (t[c] + constant) / wTot
+			}
+		} else {
+			acc := 0.0
+			for b := 0; b < vc.nb; b++ {
+				acc += t[b]
+				m[b] = (acc + constant) / wTot
+			}
+			m[vc.nb] = (t[vc.nb+1] + constant) / wTot
+			if vc.zeroMode {
+				m[vc.nb+1] = (t[vc.nb+2] + constant) / wTot
+			}
+		}
+		colMean[j] = m
+	}
+	parallel.Chunks(len(r.chunks), 1, r.cfg.Workers, func(c, _, _ int) {
+		for u := r.chunks[c][0]; u < r.chunks[c][1]; u++ {
+			out := r.sums[u*cols : (u+1)*cols]
+			for _, row := range r.units[u] {
+				wt := 1.0
+				if r.f.Weight != nil {
+					wt = r.f.Weight[row]
+				}
+				for j := 0; j < nf; j++ {
+					cl := r.vc[j].classOf(r.cols[j][row])
+					out[r.lay.drop+3*j] += wt * (colMean[j][cl] - theta[j])
+				}
+			}
+		}
+	})
 }

@@ -293,6 +293,9 @@ func measureTraffic(e *forest.Ensemble, f *frame.Frame, cfg Config, t *Table) er
 	}
 	t.Units, t.ValidUnits = len(run.units), 0
 	run.compute()
+	if metric.additive() {
+		run.linearizePermutation()
+	}
 	for u := range run.units {
 		if run.sums[u*run.lay.cols+run.lay.denMetric] > 0 {
 			t.ValidUnits++
@@ -342,6 +345,12 @@ type run struct {
 	aucScores [][]float64 // AUC only: per (feature, perturbation) scores
 	aucBase   []float64
 	boot      *bootstrap.Weights
+	// additive metrics: per chunk, per feature, loss sums by value class
+	// (numeric: a difference array over bins, then missing and zero;
+	// categorical: per class), the last entry of each feature a constant
+	// added to every class; colOff gives each feature's offset.
+	colSums [][]float64
+	colOff  []int
 }
 
 func newRun(e *forest.Ensemble, f *frame.Frame, cfg Config, metric Metric, k int) (*run, error) {
@@ -430,6 +439,17 @@ func newRun(e *forest.Ensemble, f *frame.Frame, cfg Config, metric Metric, k int
 		r.chunks = append(r.chunks, [2]int{lo, len(r.units)})
 	}
 	r.lay = newLayout(nf)
+	if metric.additive() {
+		r.colOff = make([]int, nf+1)
+		for j := range r.vc {
+			n := r.vc[j].n + 1
+			if !r.vc[j].categorical {
+				n = r.vc[j].nb + 4 // diff (nb+1), missing, zero, constant
+			}
+			r.colOff[j+1] = r.colOff[j] + n
+		}
+		r.colSums = make([][]float64, len(r.chunks))
+	}
 	r.sums = make([]float64, len(r.units)*r.lay.cols)
 	r.valid = make([]bool, len(r.units))
 	if cfg.SHAP {
