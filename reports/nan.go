@@ -1,0 +1,5 @@
+package reports
+
+import "math"
+
+var nanValue = math.NaN()
