@@ -211,7 +211,8 @@ func (c *comparer) health() {
 						th = thresholds(c.in.Baseline, name)
 					}
 					edges := psiEdges(th, finiteSorted(base), c.p.PSIBins)
-					h.PSI = PSI(binCounts(base, edges), binCounts(cand, edges), 1e-4)
+					le := c.in.Candidate.Rule == forest.LessEqualFloat64
+					h.PSI = PSI(binCountsRule(base, edges, le), binCountsRule(cand, edges, le), 1e-4)
 					h.KS = KS(base, cand)
 				}
 			}
@@ -295,7 +296,7 @@ func (c *comparer) trafficFlags() {
 					}
 					c.add(Flag{Kind: KindOutOfRange, Feature: name, Severity: sv, Sample: s.label,
 						Evidence: []Evidence{ev("unreachable_gain_share", frac), ev("traffic_min", lo), ev("traffic_max", hi)},
-						Message: fmt.Sprintf("%s: %.0f%% of the feature's split gain sits on splits outside the traffic range [%s, %s]", s.label, 100*frac, fmtValue(lo), fmtValue(hi))})
+						Message:  fmt.Sprintf("%s: %.0f%% of the feature's split gain sits on splits outside the traffic range [%s, %s]", s.label, 100*frac, fmtValue(lo), fmtValue(hi))})
 				}
 			}
 		}
@@ -313,7 +314,7 @@ func (c *comparer) trafficFlags() {
 			if d := h.MissingCandidate - h.MissingBaseline; d >= c.p.MissingSpikePoints {
 				c.add(Flag{Kind: KindMissingSpike, Feature: name, Severity: sev, Sample: "candidate traffic",
 					Evidence: []Evidence{ev("missing_baseline", h.MissingBaseline), ev("missing_candidate", h.MissingCandidate)},
-					Message: fmt.Sprintf("missing in %.1f%% of candidate rows, %.1f%% in the baseline week", 100*h.MissingCandidate, 100*h.MissingBaseline)})
+					Message:  fmt.Sprintf("missing in %.1f%% of candidate rows, %.1f%% in the baseline week", 100*h.MissingCandidate, 100*h.MissingBaseline)})
 			}
 			if h.PSI >= c.p.PSIWarn {
 				sv := SeverityWarn
@@ -322,13 +323,13 @@ func (c *comparer) trafficFlags() {
 				}
 				c.add(Flag{Kind: KindShifted, Feature: name, Severity: sv, Sample: "candidate traffic",
 					Evidence: []Evidence{ev("psi", h.PSI), ev("ks", h.KS)},
-					Message: fmt.Sprintf("distribution moved between the samples: PSI %.3f, KS %.3f", h.PSI, h.KS)})
+					Message:  fmt.Sprintf("distribution moved between the samples: PSI %.3f, KS %.3f", h.PSI, h.KS)})
 			}
 		} else if h.MissingCandidate >= c.p.MissingHighShare {
 			if dc := defaultCoverShare(c.in.Candidate, name); dc == dc && dc < c.p.RareDefaultCover {
 				c.add(Flag{Kind: KindMissingSpike, Feature: name, Severity: sev, Sample: "candidate traffic",
 					Evidence: []Evidence{ev("missing_candidate", h.MissingCandidate), ev("default_cover_share", dc)},
-					Message: fmt.Sprintf("missing in %.1f%% of rows, but only %.1f%% of the training cover took the default branches", 100*h.MissingCandidate, 100*dc)})
+					Message:  fmt.Sprintf("missing in %.1f%% of rows, but only %.1f%% of the training cover took the default branches", 100*h.MissingCandidate, 100*dc)})
 			}
 		}
 	}
@@ -339,7 +340,7 @@ func ev(name string, v float64) Evidence {
 }
 
 func fmtValue(v float64) string {
-	return strings.TrimRight(strings.TrimRight(fmt.Sprintf("%.6g", v), "0"), ".")
+	return fmt.Sprintf("%.6g", v)
 }
 
 // singleBranch reports whether every row of col takes the same branch at
@@ -559,6 +560,10 @@ func (c *comparer) removals() {
 	if c.in.Catalog == nil {
 		return
 	}
+	if ct.Metric == importance.MetricMeanAbsDelta {
+		c.r.Notes = append(c.r.Notes, "no label column: removal candidates need a quality metric, so none are named")
+		return
+	}
 	cat := c.in.Catalog
 	c.r.CostUnit = cat.Unit
 	isCand := map[string]bool{}
@@ -669,7 +674,7 @@ func (c *comparer) hints() {
 		traffic := has(KindWentConstant) || has(KindMissingSpike) || has(KindShifted) || has(KindOutOfRange)
 		hint := ""
 		switch {
-		case traffic && (has(KindCollapsed) || has(KindWentConstant) || has(KindMissingSpike) || has(KindDropped)):
+		case traffic && (has(KindCollapsed) || has(KindSurged) || has(KindWentConstant) || has(KindMissingSpike) || has(KindDropped)):
 			hint = HintPipelineSuspect
 		case has(KindCollapsed) || has(KindSurged):
 			hint = HintModelShift

@@ -3,6 +3,7 @@ package audit
 import (
 	"bytes"
 	"encoding/json"
+	"errors"
 	"fmt"
 	"io"
 	"os"
@@ -93,6 +94,9 @@ func ReadPolicy(path string) (Policy, error) {
 	dec.DisallowUnknownFields()
 	if err := dec.Decode(&p); err != nil {
 		return p, fmt.Errorf("policy %s: %w", path, err)
+	}
+	if _, err := dec.Token(); !errors.Is(err, io.EOF) {
+		return p, fmt.Errorf("policy %s: unexpected data after the JSON object", path)
 	}
 	if err := p.Validate(); err != nil {
 		return p, fmt.Errorf("policy %s: %w", path, err)

@@ -94,8 +94,25 @@ func psiEdges(thresholds, baseline []float64, bins int) []float64 {
 }
 
 // binCounts counts values into len(edges)+1 bins (value < edge goes below
-// it) plus a last bin for missing values.
+// it, as XGBoost splits) plus a last bin for missing values.
 func binCounts(values, edges []float64) []float64 {
+	return binCountsRule(values, edges, false)
+}
+
+// binCountsRule is binCounts with LightGBM's rule when lessEqual (value <=
+// edge goes below it).
+func binCountsRule(values, edges []float64, lessEqual bool) []float64 {
+	if lessEqual {
+		c := make([]float64, len(edges)+2)
+		for _, v := range values {
+			if v != v {
+				c[len(edges)+1]++
+				continue
+			}
+			c[sort.SearchFloat64s(edges, v)]++
+		}
+		return c
+	}
 	c := make([]float64, len(edges)+2)
 	for _, v := range values {
 		if v != v {
