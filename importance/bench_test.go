@@ -39,9 +39,11 @@ func BenchmarkScorePass(b *testing.B) {
 	cols, _, _ := benchdata.Rows(benchRows, 2)
 	dst := make([]float64, benchRows)
 	b.ResetTimer()
+	c0 := processCPU()
 	for i := 0; i < b.N; i++ {
 		e.Margins(dst, cols, benchRows, 2)
 	}
+	b.ReportMetric((processCPU()-c0).Seconds()/float64(b.N), "cpu-s/op")
 }
 
 func BenchmarkScorePass10k(b *testing.B) {
@@ -56,9 +58,11 @@ func BenchmarkScorePass10k(b *testing.B) {
 func BenchmarkDropsNDCG(b *testing.B) {
 	_, run := benchInputs(b, benchRows)
 	b.ResetTimer()
+	c0 := processCPU()
 	for i := 0; i < b.N; i++ {
 		run()
 	}
+	b.ReportMetric((processCPU()-c0).Seconds()/float64(b.N), "cpu-s/op")
 }
 
 // benchRows is the benchmark sample size (100k rows, 4k groups).

@@ -200,3 +200,51 @@ func compileSplits(e *forest.Ensemble, vc []valueClasses) [][]nodeSplit {
 	}
 	return out
 }
+
+// wnode is the walks' compact copy of a tree node: the split and its action
+// on the feature's value classes in one record, so a walk loads one cache
+// line per node instead of two.
+type wnode struct {
+	thr         float64
+	feat        int32
+	left, right int32
+	cut         int32 // numeric: classes [0, cut) go left
+	flags       uint8
+}
+
+const (
+	wLeaf     uint8 = 1 << iota // a leaf: thr, feat and children unused
+	wSlow                       // needs forest.Next (categorical, LightGBM missing rules)
+	wMissLeft                   // the missing class goes left
+	wZeroLeft                   // the zero class goes left
+)
+
+// compileWalk builds the compact node arrays from the trees and the splits.
+func compileWalk(e *forest.Ensemble, ns [][]nodeSplit) [][]wnode {
+	out := make([][]wnode, len(e.Trees))
+	for ti := range e.Trees {
+		t := &e.Trees[ti]
+		w := make([]wnode, len(t.Nodes))
+		for i := range t.Nodes {
+			n := &t.Nodes[i]
+			if n.IsLeaf() {
+				w[i] = wnode{flags: wLeaf, feat: -1}
+				continue
+			}
+			s := &ns[ti][i]
+			x := wnode{thr: n.Threshold, feat: n.Feature, left: n.Left, right: n.Right, cut: s.cut}
+			if n.Flags&forest.SlowFlags != 0 {
+				x.flags |= wSlow
+			}
+			if s.missingLeft {
+				x.flags |= wMissLeft
+			}
+			if s.zeroLeft {
+				x.flags |= wZeroLeft
+			}
+			w[i] = x
+		}
+		out[ti] = w
+	}
+	return out
+}

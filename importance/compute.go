@@ -17,6 +17,7 @@ type worker struct {
 	pathSeen []int32 // stamp per feature: tree index + 1 when met on the path
 	onPath   []int32 // first path node of each feature met on the current tree's path, in order
 	path     []int32 // internal nodes of the current tree's own path, root first
+	state    []pathState
 	present  []bool
 	tests    []float64
 	loss     *rowLoss
@@ -42,6 +43,7 @@ func (r *run) newWorker() *worker {
 		pert:     make([]float64, k),
 		builders: make([]*stepBuilder, nf),
 		pathSeen: make([]int32, nf),
+		state:    make([]pathState, nf),
 		present:  make([]bool, nf),
 		tests:    make([]float64, nf),
 		loss:     newRowLoss(r.metric, r.e),
@@ -174,6 +176,7 @@ func (r *run) scoreRow(w *worker, row int) {
 		w.present[j] = false
 		w.tests[j] = 0
 		w.pathSeen[j] = 0
+		w.state[j].tree = 0
 		w.builders[j].start(int32(row))
 	}
 	copy(w.margin, e.BaseMargin)
@@ -185,13 +188,14 @@ func (r *run) scoreRow(w *worker, row int) {
 		w.onPath = w.onPath[:0]
 		w.path = w.path[:0]
 		// own path
+		wn := r.walk[ti]
 		i := int32(0)
 		for {
-			n := &t.Nodes[i]
-			if n.Flags&forest.FlagLeaf != 0 {
+			n := &wn[i]
+			if n.flags&wLeaf != 0 {
 				break
 			}
-			fj := n.Feature
+			fj := n.feat
 			w.path = append(w.path, i)
 			w.tests[fj]++
 			if w.pathSeen[fj] != stamp {
@@ -200,29 +204,68 @@ func (r *run) scoreRow(w *worker, row int) {
 			}
 			x := w.x[fj]
 			switch {
-			case n.Flags&forest.SlowFlags != 0 || x != x:
-				i = forest.Next(t, n, x, e.Rule)
-			case xgb && float32(x) < float32(n.Threshold), !xgb && x <= n.Threshold:
-				i = n.Left
+			case n.flags&wSlow != 0 || x != x:
+				i = forest.Next(t, &t.Nodes[i], x, e.Rule)
+			case xgb && float32(x) < float32(n.thr), !xgb && x <= n.thr:
+				i = n.left
 			default:
-				i = n.Right
+				i = n.right
 			}
 		}
 		own := t.Value[i]
 		w.margin[t.Class] += own
+		// categorical features: one set walk from their first path node
 		for _, start := range w.onPath {
 			fj := t.Nodes[start].Feature
 			w.present[fj] = true
-			b := w.builders[fj]
 			vc := &r.vc[fj]
 			if vc.categorical {
 				all := make([]uint64, (vc.n+63)/64)
 				for c := 0; c < vc.n; c++ {
 					all[c/64] |= 1 << (c % 64)
 				}
-				w.walker.walkSet(t, ns, fj, start, all, own, b)
+				w.walker.walkSet(t, ns, fj, start, all, own, w.builders[fj])
+			}
+		}
+		// numeric features: one pass along the path. Only a feature's own
+		// nodes on the path matter to it (elsewhere the row follows its own
+		// branch whatever the feature's value), so each feature keeps the
+		// classes still on the path and walks only the branches that leave
+		// it; classes that stay on the path end at the own leaf (change 0).
+		for p, ni := range w.path {
+			n := &wn[ni]
+			fj := n.feat
+			vc := &r.vc[fj]
+			if vc.categorical {
+				continue
+			}
+			st := &w.state[fj]
+			if st.tree != stamp {
+				*st = pathState{tree: stamp, lo: 0, hi: int32(vc.nb), m: true, z: vc.zeroMode}
+			}
+			if !(st.lo < st.hi || st.m || st.z) {
+				continue
+			}
+			next := i
+			if p+1 < len(w.path) {
+				next = w.path[p+1]
+			}
+			ml, zl := n.flags&wMissLeft != 0, n.flags&wZeroLeft != 0
+			llo, lhi := st.lo, min(st.hi, n.cut)
+			rlo, rhi := max(st.lo, n.cut), st.hi
+			lm, rm := st.m && ml, st.m && !ml
+			lz, rz := st.z && zl, st.z && !zl
+			b := w.builders[fj]
+			if next == n.left {
+				if rlo < rhi || rm || rz {
+					w.walker.walkNumeric(t, wn, fj, n.right, rlo, rhi, rm, rz, own, b)
+				}
+				st.lo, st.hi, st.m, st.z = llo, lhi, lm, lz
 			} else {
-				w.walkPathNumeric(t, ns, fj, i, vc, own, b)
+				if llo < lhi || lm || lz {
+					w.walker.walkNumeric(t, wn, fj, n.left, llo, lhi, lm, lz, own, b)
+				}
+				st.lo, st.hi, st.m, st.z = rlo, rhi, rm, rz
 			}
 		}
 	}
@@ -372,42 +415,12 @@ func (r *run) ndcgUnit(w *worker, u int, out []float64, first int) {
 	}
 }
 
-// walkPathNumeric emits one tree's pieces for feature f: along the row's own
-// path only the nodes testing f matter (elsewhere the row follows its own
-// branch whatever f's value), so the walk jumps from one f-node of the path
-// to the next, and only the branches that leave the path are walked. Classes
-// that stay on the path end at the row's own leaf (change 0: nothing to add).
-func (w *worker) walkPathNumeric(t *forest.Tree, ns []nodeSplit, f int32, ownLeaf int32, vc *valueClasses, own float64, b *stepBuilder) {
-	lo, hi, m, z := int32(0), int32(vc.nb), true, vc.zeroMode
-	for p, i := range w.path {
-		n := &t.Nodes[i]
-		if n.Feature != f {
-			continue
-		}
-		next := ownLeaf
-		if p+1 < len(w.path) {
-			next = w.path[p+1]
-		}
-		s := &ns[i]
-		llo, lhi := lo, min(hi, s.cut)
-		rlo, rhi := max(lo, s.cut), hi
-		lm, rm := m && s.missingLeft, m && !s.missingLeft
-		lz, rz := z && s.zeroLeft, z && !s.zeroLeft
-		if next == n.Left {
-			if rlo < rhi || rm || rz {
-				w.walker.walkNumeric(t, ns, f, n.Right, rlo, rhi, rm, rz, own, b)
-			}
-			lo, hi, m, z = llo, lhi, lm, lz
-		} else {
-			if llo < lhi || lm || lz {
-				w.walker.walkNumeric(t, ns, f, n.Left, llo, lhi, lm, lz, own, b)
-			}
-			lo, hi, m, z = rlo, rhi, rm, rz
-		}
-		if !(lo < hi || m || z) {
-			return
-		}
-	}
+// pathState is one feature's classes still on the row's own path in the
+// current tree (tree is the tree's stamp, so stale states reset).
+type pathState struct {
+	tree   int32
+	lo, hi int32
+	m, z   bool
 }
 
 // linearizePermutation adds to every unit's permutation terms the second

@@ -326,6 +326,7 @@ type run struct {
 	absent []bool
 	vc     []valueClasses
 	splits [][]nodeSplit
+	walk   [][]wnode
 	// class distributions of each feature in the traffic (weighted),
 	// numeric: prefix sums over bins; special classes separately
 	prefix    [][]float64
@@ -363,6 +364,7 @@ func newRun(e *forest.Ensemble, f *frame.Frame, cfg Config, metric Metric, k int
 	}
 	r.vc = buildClasses(e, r.cols, medians)
 	r.splits = compileSplits(e, r.vc)
+	r.walk = compileWalk(e, r.splits)
 	r.medianC = make([]int, nf)
 	for j := range medians {
 		r.medianC[j] = r.vc[j].classOf(medians[j])

@@ -193,42 +193,42 @@ type freeWalker struct {
 
 // walkNumeric explores node i with class state [lo, hi) + missing/zero
 // flags and emits (state, leaf value - own) pieces.
-func (w *freeWalker) walkNumeric(t *forest.Tree, ns []nodeSplit, f int32, i int32, lo, hi int32, m, z bool, own float64, b *stepBuilder) {
+func (w *freeWalker) walkNumeric(t *forest.Tree, wn []wnode, f int32, i int32, lo, hi int32, m, z bool, own float64, b *stepBuilder) {
 	for {
-		n := &t.Nodes[i]
-		if n.Flags&forest.FlagLeaf != 0 {
+		n := &wn[i]
+		if n.flags&wLeaf != 0 {
 			if d := t.Value[i] - own; d != 0 {
 				b.addNumeric(lo, hi, m, z, t.Class, d)
 			}
 			return
 		}
-		if n.Feature != f {
-			x := w.x[n.Feature]
+		if n.feat != f {
+			x := w.x[n.feat]
 			switch {
-			case n.Flags&forest.SlowFlags != 0 || x != x:
-				i = forest.Next(t, n, x, w.e.Rule)
-			case w.xgb && float32(x) < float32(n.Threshold), !w.xgb && x <= n.Threshold:
-				i = n.Left
+			case n.flags&wSlow != 0 || x != x:
+				i = forest.Next(t, &t.Nodes[i], x, w.e.Rule)
+			case w.xgb && float32(x) < float32(n.thr), !w.xgb && x <= n.thr:
+				i = n.left
 			default:
-				i = n.Right
+				i = n.right
 			}
 			continue
 		}
-		s := &ns[i]
-		llo, lhi := lo, min(hi, s.cut)
-		rlo, rhi := max(lo, s.cut), hi
-		lm, rm := m && s.missingLeft, m && !s.missingLeft
-		lz, rz := z && s.zeroLeft, z && !s.zeroLeft
+		ml, zl := n.flags&wMissLeft != 0, n.flags&wZeroLeft != 0
+		llo, lhi := lo, min(hi, n.cut)
+		rlo, rhi := max(lo, n.cut), hi
+		lm, rm := m && ml, m && !ml
+		lz, rz := z && zl, z && !zl
 		lok := llo < lhi || lm || lz
 		rok := rlo < rhi || rm || rz
 		switch {
 		case lok && rok:
-			w.walkNumeric(t, ns, f, n.Left, llo, lhi, lm, lz, own, b)
-			i, lo, hi, m, z = n.Right, rlo, rhi, rm, rz
+			w.walkNumeric(t, wn, f, n.left, llo, lhi, lm, lz, own, b)
+			i, lo, hi, m, z = n.right, rlo, rhi, rm, rz
 		case lok:
-			i, lo, hi, m, z = n.Left, llo, lhi, lm, lz
+			i, lo, hi, m, z = n.left, llo, lhi, lm, lz
 		case rok:
-			i, lo, hi, m, z = n.Right, rlo, rhi, rm, rz
+			i, lo, hi, m, z = n.right, rlo, rhi, rm, rz
 		default:
 			return
 		}

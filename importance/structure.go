@@ -6,7 +6,8 @@ import "splitledger/importance/forest"
 // defined as the training libraries define them:
 //
 //   - SplitCount: internal nodes that test the feature (XGBoost
-//     get_score "weight", LightGBM feature_importance "split").
+//     get_score "weight", LightGBM feature_importance "split", which
+//     counts only splits with positive gain).
 //   - TotalGain: sum of the split gain (loss reduction) of those nodes
 //     (XGBoost "total_gain", LightGBM "gain").
 //   - MeanGain: TotalGain / SplitCount (XGBoost "gain"); 0 when unused.
@@ -48,6 +49,9 @@ func MeasureStructure(e *forest.Ensemble) Structure {
 			n := &t.Nodes[i]
 			if n.IsLeaf() {
 				continue
+			}
+			if e.Format == "lightgbm-text" && t.Gain != nil && !(t.Gain[i] > 0) {
+				continue // LightGBM's feature importance skips splits without positive gain
 			}
 			s.SplitCount[n.Feature]++
 			if t.Gain != nil {
