@@ -173,3 +173,36 @@ func TestImportanceJSONKeys(t *testing.T) {
 		}
 	}
 }
+
+// explain: a score difference between two rows splits exactly into the sum
+// of per-feature SHAP differences (the bias cancels): the local accuracy
+// property of SHAP values (Lundberg, Erion & Lee 2018).
+func TestExplainDifferenceIdentity(t *testing.T) {
+	pq := filepath.Join(t.TempDir(), "rows.parquet")
+	csvToParquet(t, fixture("missing", "rows.csv"), pq)
+	for _, rows := range []string{"0,1", "5,17", "42,3"} {
+		code, out, errs := run(t, "explain", fixture("missing", "model.json"), "--traffic", pq, "--rows", rows, "--format", "json")
+		if code != ExitOK {
+			t.Fatalf("exit %d: %s", code, errs)
+		}
+		var got struct {
+			MarginI, MarginJ float64
+			Features         []struct{ Difference float64 }
+		}
+		dec := json.NewDecoder(strings.NewReader(strings.NewReplacer(`"margin_i"`, `"MarginI"`, `"margin_j"`, `"MarginJ"`, `"difference"`, `"Difference"`).Replace(out)))
+		if err := dec.Decode(&got); err != nil {
+			t.Fatal(err)
+		}
+		sum := 0.0
+		for _, f := range got.Features {
+			sum += f.Difference
+		}
+		if d := math.Abs(sum - (got.MarginI - got.MarginJ)); !(d <= 1e-5) {
+			t.Errorf("rows %s: SHAP differences sum to %v, margins differ by %v", rows, sum, got.MarginI-got.MarginJ)
+		}
+	}
+	code, _, errs := run(t, "explain", fixture("missing", "model.json"), "--traffic", pq, "--rows", "0,100000")
+	if code != ExitBadInput || !strings.Contains(errs, "out of range") {
+		t.Errorf("row out of range: exit %d, %q", code, errs)
+	}
+}
