@@ -1,0 +1,14 @@
+//go:build linux
+
+package traffic
+
+import "syscall"
+
+// physicalMemory returns the machine's memory in bytes, 0 when unknown.
+func physicalMemory() int64 {
+	var info syscall.Sysinfo_t
+	if err := syscall.Sysinfo(&info); err != nil {
+		return 0
+	}
+	return int64(info.Totalram) * int64(info.Unit)
+}
