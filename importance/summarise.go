@@ -100,9 +100,9 @@ func (r *run) summarise(t *Table) {
 			} else {
 				pv = get(lay.drop+3*j+p, lay.denMetric, true)
 			}
-			d := vals{point: sign * (pv.point - quality.point), reps: make([]float64, B)}
+			d := vals{point: noiseFloor(sign*(pv.point-quality.point), quality.point), reps: make([]float64, B)}
 			for b := range d.reps {
-				d.reps[b] = sign * (pv.reps[b] - quality.reps[b])
+				d.reps[b] = noiseFloor(sign*(pv.reps[b]-quality.reps[b]), quality.reps[b])
 			}
 			measures[m][j] = d
 		}
@@ -231,4 +231,15 @@ func nanSlice(n int) []float64 {
 		s[i] = math.NaN()
 	}
 	return s
+}
+
+// noiseFloor returns 0 for a drop whose size is within floating-point
+// rounding of the metric itself (|d| <= 1e-12 (1 + |q|)): such a drop is the
+// difference of two sums that hold the same terms in another order, not a
+// measured effect.
+func noiseFloor(d, q float64) float64 {
+	if math.Abs(d) <= 1e-12*(1+math.Abs(q)) {
+		return 0
+	}
+	return d
 }

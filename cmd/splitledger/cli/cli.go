@@ -70,7 +70,7 @@ func commands() []command {
 		importanceCommand(),
 		explainCommand(),
 		compareCommand(),
-		// demoCommand(),
+		demoCommand(),
 		historyCommand(),
 	}
 }

@@ -36,6 +36,16 @@ type compareOptions struct {
 	ascii               bool
 	quiet               bool
 	historyDir          string
+	// label, when set, turns an input path into the name reports show
+	// (the demo shows demo/<file> instead of its temporary folder).
+	label func(string) string
+}
+
+func (o *compareOptions) show(path string) string {
+	if o.label != nil {
+		return o.label(path)
+	}
+	return path
 }
 
 func (o *compareOptions) add(fs *pflag.FlagSet, withModels bool) {
@@ -135,7 +145,7 @@ func runCompare(e *env, o *compareOptions) error {
 	if err != nil {
 		return err
 	}
-	models := []audit.ModelInfo{modelInfo("baseline", o.baseline, base), modelInfo("candidate", o.candidate, cand)}
+	models := []audit.ModelInfo{modelInfo("baseline", o.show(o.baseline), base), modelInfo("candidate", o.show(o.candidate), cand)}
 	for i, p := range []string{o.baseline, o.candidate} {
 		sum, size, err := fileDigest(p)
 		if err != nil {
@@ -149,17 +159,19 @@ func runCompare(e *env, o *compareOptions) error {
 	if err != nil {
 		return err
 	}
-	infos := []audit.TrafficInfo{trafficInfo("candidate traffic", o.tf.path, traffic)}
+	infos := []audit.TrafficInfo{trafficInfo("candidate traffic", o.show(o.tf.path), traffic)}
+	paths := []string{o.tf.path}
 	var baseTraffic *frame.Frame
 	if o.baselineTraffic != "" {
 		progress(e, o.quiet, "reading baseline traffic %s", o.baselineTraffic)
 		if baseTraffic, err = readUnion(o, o.baselineTraffic, union, base.FeatureNames, cfg.Seed); err != nil {
 			return err
 		}
-		infos = append(infos, trafficInfo("baseline traffic", o.baselineTraffic, baseTraffic))
+		infos = append(infos, trafficInfo("baseline traffic", o.show(o.baselineTraffic), baseTraffic))
+		paths = append(paths, o.baselineTraffic)
 	}
 	for i := range infos {
-		sum, size, err := fileDigest(infos[i].Path)
+		sum, size, err := fileDigest(paths[i])
 		if err != nil {
 			return err
 		}
@@ -173,24 +185,21 @@ func runCompare(e *env, o *compareOptions) error {
 		}
 		return t, nil
 	}
-	bt, err := measure(base, o.baseline, traffic, o.tf.path)
+	bt, err := measure(base, o.show(o.baseline), traffic, o.show(o.tf.path))
 	if err != nil {
 		return err
 	}
-	ct, err := measure(cand, o.candidate, traffic, o.tf.path)
+	ct, err := measure(cand, o.show(o.candidate), traffic, o.show(o.tf.path))
 	if err != nil {
 		return err
 	}
 	var bown *importance.Table
 	if baseTraffic != nil {
-		if bown, err = measure(base, o.baseline, baseTraffic, o.baselineTraffic); err != nil {
+		if bown, err = measure(base, o.show(o.baseline), baseTraffic, o.show(o.baselineTraffic)); err != nil {
 			return err
 		}
 	}
-	for i, t := range []*importance.Table{bt, ct} {
-		_ = i
-		infos[0].Units = t.Units
-	}
+	infos[0].Units = ct.Units
 	if bown != nil {
 		infos[1].Units = bown.Units
 	}
@@ -355,4 +364,3 @@ func historyRun(rep *audit.Report) history.Run {
 	}
 	return run
 }
-
