@@ -216,18 +216,23 @@ const SlowFlags = FlagCategorical | FlagNaNAsZero | FlagZeroIsMissing
 // NaN means missing.
 func Next(t *Tree, n *Node, x float64, rule Rule) int32 {
 	if n.Flags&SlowFlags == 0 && x == x {
-		if rule == LessThanFloat32 {
-			if float32(x) < float32(n.Threshold) {
-				return n.Left
-			}
-			return n.Right
-		}
-		if x <= n.Threshold {
+		return threshold(n, x, rule)
+	}
+	return nextSlow(t, n, x, rule)
+}
+
+// threshold applies the numeric test of the rule to a present value.
+func threshold(n *Node, x float64, rule Rule) int32 {
+	if rule == LessThanFloat32 {
+		if float32(x) < float32(n.Threshold) {
 			return n.Left
 		}
 		return n.Right
 	}
-	return nextSlow(t, n, x, rule)
+	if x <= n.Threshold {
+		return n.Left
+	}
+	return n.Right
 }
 
 func nextSlow(t *Tree, n *Node, x float64, rule Rule) int32 {
@@ -257,16 +262,7 @@ func nextSlow(t *Tree, n *Node, x float64, rule Rule) int32 {
 		}
 		return n.Right
 	}
-	if rule == LessThanFloat32 {
-		if float32(x) < float32(n.Threshold) {
-			return n.Left
-		}
-		return n.Right
-	}
-	if x <= n.Threshold {
-		return n.Left
-	}
-	return n.Right
+	return threshold(n, x, rule)
 }
 
 // InSet reports whether category value x (truncated to an integer) is in the

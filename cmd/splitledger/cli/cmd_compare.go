@@ -104,13 +104,11 @@ func progress(e *env, quiet bool, format string, a ...any) {
 // runCompare wires storage -> importance -> audit -> reports (-> history).
 func runCompare(e *env, o *compareOptions) error {
 	started := time.Now().UTC()
-	switch o.format {
-	case "text", "markdown", "json", "csv", "html":
-	default:
-		return usagef("--format %q: want text, markdown, json, csv or html", o.format)
+	if err := oneOf("format", o.format, "text", "markdown", "json", "csv", "html"); err != nil {
+		return err
 	}
-	if o.failOn != "fail" && o.failOn != "warn" {
-		return usagef("--fail-on %q: want fail or warn", o.failOn)
+	if err := oneOf("fail-on", o.failOn, "fail", "warn"); err != nil {
+		return err
 	}
 	policy := audit.DefaultPolicy()
 	if o.policyPath != "" {

@@ -28,13 +28,11 @@ func historyCommand() command {
 				if err != nil {
 					return err
 				}
-				switch *format {
-				case "text", "json", "csv":
-				default:
-					return usagef("--format %q: want text, json or csv", *format)
+				if err := oneOf("format", *format, "text", "json", "csv"); err != nil {
+					return err
 				}
-				if *version != "candidate" && *version != "baseline" {
-					return usagef("--version %q: want candidate or baseline", *version)
+				if err := oneOf("version", *version, "candidate", "baseline"); err != nil {
+					return err
 				}
 				if *prune != "" {
 					before, err := time.Parse("2006-01-02", *prune)

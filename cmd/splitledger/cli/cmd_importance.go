@@ -33,10 +33,8 @@ func importanceCommand() command {
 				if err != nil {
 					return err
 				}
-				switch *format {
-				case "text", "json", "csv":
-				default:
-					return usagef("--format %q: want text, json or csv", *format)
+				if err := oneOf("format", *format, "text", "json", "csv"); err != nil {
+					return err
 				}
 				cfg, err := ms.config()
 				if err != nil {
@@ -96,6 +94,9 @@ func explainCommand() command {
 				}
 				if tf.path == "" {
 					return usagef("--traffic is required")
+				}
+				if err := oneOf("format", *format, "text", "json"); err != nil {
+					return err
 				}
 				parts := strings.Split(*rows, ",")
 				if len(parts) != 2 {

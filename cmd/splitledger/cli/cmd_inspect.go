@@ -23,8 +23,8 @@ func inspectCommand() command {
 				if len(args) == 0 {
 					return usagef("want at least one model file")
 				}
-				if *format != "text" && *format != "json" {
-					return usagef("--format %q: want text or json", *format)
+				if err := oneOf("format", *format, "text", "json"); err != nil {
+					return err
 				}
 				var out []reports.ModelSummary
 				for _, path := range args {

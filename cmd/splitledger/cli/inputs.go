@@ -2,6 +2,8 @@ package cli
 
 import (
 	"math"
+	"slices"
+	"strings"
 
 	"github.com/spf13/pflag"
 
@@ -163,3 +165,18 @@ func oneArg(args []string, what string) (string, error) {
 }
 
 var mathNaN = math.NaN()
+
+// oneOf checks that an option's value is one of the allowed words.
+func oneOf(option, value string, allowed ...string) error {
+	if slices.Contains(allowed, value) {
+		return nil
+	}
+	last := allowed[len(allowed)-1]
+	list := strings.Join(allowed[:len(allowed)-1], ", ")
+	if list != "" {
+		list += " or " + last
+	} else {
+		list = last
+	}
+	return usagef("--%s %q: want %s", option, value, list)
+}
