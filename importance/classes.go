@@ -205,7 +205,7 @@ func compileSplits(e *forest.Ensemble, vc []valueClasses) [][]nodeSplit {
 // on the feature's value classes in one record, so a walk loads one cache
 // line per node instead of two.
 type wnode struct {
-	thr         float64
+	thr         float32 // XGBoost's float32 threshold; LightGBM reads Tree.Nodes[i].Threshold
 	feat        int32
 	left, right int32
 	cut         int32 // numeric: classes [0, cut) go left
@@ -213,10 +213,11 @@ type wnode struct {
 }
 
 const (
-	wLeaf     uint8 = 1 << iota // a leaf: thr, feat and children unused
-	wSlow                       // needs forest.Next (categorical, LightGBM missing rules)
-	wMissLeft                   // the missing class goes left
-	wZeroLeft                   // the zero class goes left
+	wLeaf        uint8 = 1 << iota // a leaf: thr, feat and children unused
+	wSlow                          // needs forest.Next (categorical, LightGBM missing rules)
+	wMissLeft                      // the missing class goes left
+	wZeroLeft                      // the zero class goes left
+	wDefaultLeft                   // a missing value goes left (non-slow nodes)
 )
 
 // compileWalk builds the compact node arrays from the trees and the splits.
@@ -232,9 +233,12 @@ func compileWalk(e *forest.Ensemble, ns [][]nodeSplit) [][]wnode {
 				continue
 			}
 			s := &ns[ti][i]
-			x := wnode{thr: n.Threshold, feat: n.Feature, left: n.Left, right: n.Right, cut: s.cut}
+			x := wnode{thr: float32(n.Threshold), feat: n.Feature, left: n.Left, right: n.Right, cut: s.cut}
 			if n.Flags&forest.SlowFlags != 0 {
 				x.flags |= wSlow
+			}
+			if n.Flags&forest.FlagDefaultLeft != 0 {
+				x.flags |= wDefaultLeft
 			}
 			if s.missingLeft {
 				x.flags |= wMissLeft

@@ -143,9 +143,8 @@ func (r *run) chunk(w *worker, u0, u1 int) {
 				vc := &r.vc[j]
 				s[0] = w.margin[0] + sf.at1(vc, vc.missingClass())
 				s[1] = w.margin[0] + sf.at1(vc, r.medianC[j])
-				cl := r.classOf[j]
-				for k, p := range r.perms {
-					s[2+k] = w.margin[0] + sf.at1(vc, int(cl[p[row]]))
+				for k := range r.perms {
+					s[2+k] = w.margin[0] + sf.at1(vc, int(r.permClass[k][j][row]))
 				}
 			}
 			if r.aucScores != nil {
@@ -200,13 +199,20 @@ func (r *run) scoreRow(w *worker, row int) {
 			w.tests[fj]++
 			if w.pathSeen[fj] != stamp {
 				w.pathSeen[fj] = stamp
+				w.present[fj] = true
 				w.onPath = append(w.onPath, i)
 			}
 			x := w.x[fj]
 			switch {
-			case n.flags&wSlow != 0 || x != x:
+			case n.flags&wSlow != 0:
 				i = forest.Next(t, &t.Nodes[i], x, e.Rule)
-			case xgb && float32(x) < float32(n.thr), !xgb && x <= n.thr:
+			case x != x: // missing: the default branch
+				if n.flags&wDefaultLeft != 0 {
+					i = n.left
+				} else {
+					i = n.right
+				}
+			case xgb && float32(x) < n.thr, !xgb && x <= t.Nodes[i].Threshold:
 				i = n.left
 			default:
 				i = n.right
@@ -216,8 +222,7 @@ func (r *run) scoreRow(w *worker, row int) {
 		w.margin[t.Class] += own
 		// categorical features: one set walk from their first path node
 		for _, start := range w.onPath {
-			fj := t.Nodes[start].Feature
-			w.present[fj] = true
+			fj := wn[start].feat
 			vc := &r.vc[fj]
 			if vc.categorical {
 				all := make([]uint64, (vc.n+63)/64)

@@ -334,6 +334,7 @@ type run struct {
 	medianC   []int       // class of the median per feature
 	classOf   [][]int32   // per feature, class of each row (shuffled metrics)
 	perms     [][]int32   // per repeat, a permutation of rows
+	permClass [][][]int32 // per repeat and feature, the class each row receives
 	units     [][]int32
 	chunks    [][2]int // unit ranges
 	lay       layout
@@ -419,6 +420,22 @@ func newRun(e *forest.Ensemble, f *frame.Frame, cfg Config, metric Metric, k int
 			rng.Shuffle(len(p), func(a, b int) { p[a], p[b] = p[b], p[a] })
 			r.perms[i] = p
 		}
+		// the class each row receives in each shuffle, in row order, so the
+		// pass reads it sequentially (the random reads happen here, once)
+		r.permClass = make([][][]int32, cfg.Repeats)
+		for k := range r.perms {
+			r.permClass[k] = make([][]int32, nf)
+		}
+		parallel.Chunks(nf, 1, cfg.Workers, func(_, j, _ int) {
+			cl := r.classOf[j]
+			for k, p := range r.perms {
+				pc := make([]int32, f.Rows)
+				for row, src := range p {
+					pc[row] = cl[src]
+				}
+				r.permClass[k][j] = pc
+			}
+		})
 	}
 	// units: query groups (metric and bootstrap clusters), else rows
 	if f.Group != nil {

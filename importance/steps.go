@@ -205,9 +205,15 @@ func (w *freeWalker) walkNumeric(t *forest.Tree, wn []wnode, f int32, i int32, l
 		if n.feat != f {
 			x := w.x[n.feat]
 			switch {
-			case n.flags&wSlow != 0 || x != x:
+			case n.flags&wSlow != 0:
 				i = forest.Next(t, &t.Nodes[i], x, w.e.Rule)
-			case w.xgb && float32(x) < float32(n.thr), !w.xgb && x <= n.thr:
+			case x != x: // missing: the default branch
+				if n.flags&wDefaultLeft != 0 {
+					i = n.left
+				} else {
+					i = n.right
+				}
+			case w.xgb && float32(x) < n.thr, !w.xgb && x <= t.Nodes[i].Threshold:
 				i = n.left
 			default:
 				i = n.right

@@ -207,6 +207,11 @@ func writeOutput(e *env, path string, render func(io.Writer) error) error {
 		return fmt.Errorf("--out %s: %w", path, err)
 	}
 	defer os.Remove(tmp.Name())
+	// a report is for reading: the usual file mode, not CreateTemp's 0600
+	if err := tmp.Chmod(0o644); err != nil {
+		tmp.Close()
+		return fmt.Errorf("--out %s: %w", path, err)
+	}
 	if err := render(tmp); err != nil {
 		tmp.Close()
 		return err
