@@ -213,15 +213,22 @@ type wnode struct {
 }
 
 const (
-	wLeaf        uint8 = 1 << iota // a leaf: thr, feat and children unused
+	wLeaf        uint8 = 1 << iota // a leaf: its value is in left/right (see leafValue)
 	wSlow                          // needs forest.Next (categorical, LightGBM missing rules)
 	wMissLeft                      // the missing class goes left
 	wZeroLeft                      // the zero class goes left
 	wDefaultLeft                   // a missing value goes left (non-slow nodes)
+	wCatFeature                    // the node's feature has category-set splits (set walks)
 )
 
+// leafValue reads a leaf's value, kept in the node's child fields so a walk
+// that reaches a leaf needs no second cache line.
+func (n *wnode) leafValue() float64 {
+	return math.Float64frombits(uint64(uint32(n.left)) | uint64(uint32(n.right))<<32)
+}
+
 // compileWalk builds the compact node arrays from the trees and the splits.
-func compileWalk(e *forest.Ensemble, ns [][]nodeSplit) [][]wnode {
+func compileWalk(e *forest.Ensemble, ns [][]nodeSplit, vc []valueClasses) [][]wnode {
 	out := make([][]wnode, len(e.Trees))
 	for ti := range e.Trees {
 		t := &e.Trees[ti]
@@ -229,13 +236,17 @@ func compileWalk(e *forest.Ensemble, ns [][]nodeSplit) [][]wnode {
 		for i := range t.Nodes {
 			n := &t.Nodes[i]
 			if n.IsLeaf() {
-				w[i] = wnode{flags: wLeaf, feat: -1}
+				bits := math.Float64bits(t.Value[i])
+				w[i] = wnode{flags: wLeaf, feat: -1, left: int32(uint32(bits)), right: int32(uint32(bits >> 32))}
 				continue
 			}
 			s := &ns[ti][i]
 			x := wnode{thr: float32(n.Threshold), feat: n.Feature, left: n.Left, right: n.Right, cut: s.cut}
 			if n.Flags&forest.SlowFlags != 0 {
 				x.flags |= wSlow
+			}
+			if vc[n.Feature].categorical {
+				x.flags |= wCatFeature
 			}
 			if n.Flags&forest.FlagDefaultLeft != 0 {
 				x.flags |= wDefaultLeft

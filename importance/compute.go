@@ -218,7 +218,7 @@ func (r *run) scoreRow(w *worker, row int) {
 				i = n.right
 			}
 		}
-		own := t.Value[i]
+		own := wn[i].leafValue()
 		w.margin[t.Class] += own
 		// categorical features: one set walk from their first path node
 		for _, start := range w.onPath {
@@ -239,14 +239,14 @@ func (r *run) scoreRow(w *worker, row int) {
 		// it; classes that stay on the path end at the own leaf (change 0).
 		for p, ni := range w.path {
 			n := &wn[ni]
-			fj := n.feat
-			vc := &r.vc[fj]
-			if vc.categorical {
+			if n.flags&wCatFeature != 0 {
 				continue
 			}
+			fj := n.feat
 			st := &w.state[fj]
 			if st.tree != stamp {
-				*st = pathState{tree: stamp, lo: 0, hi: int32(vc.nb), m: true, z: vc.zeroMode}
+				*st = r.init[fj]
+				st.tree = stamp
 			}
 			if !(st.lo < st.hi || st.m || st.z) {
 				continue

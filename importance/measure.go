@@ -327,6 +327,7 @@ type run struct {
 	vc     []valueClasses
 	splits [][]nodeSplit
 	walk   [][]wnode
+	init   []pathState // per feature: every class still on the path
 	// class distributions of each feature in the traffic (weighted),
 	// numeric: prefix sums over bins; special classes separately
 	prefix    [][]float64
@@ -365,7 +366,11 @@ func newRun(e *forest.Ensemble, f *frame.Frame, cfg Config, metric Metric, k int
 	}
 	r.vc = buildClasses(e, r.cols, medians)
 	r.splits = compileSplits(e, r.vc)
-	r.walk = compileWalk(e, r.splits)
+	r.walk = compileWalk(e, r.splits, r.vc)
+	r.init = make([]pathState, nf)
+	for j := range r.vc {
+		r.init[j] = pathState{lo: 0, hi: int32(r.vc[j].nb), m: true, z: r.vc[j].zeroMode}
+	}
 	r.medianC = make([]int, nf)
 	for j := range medians {
 		r.medianC[j] = r.vc[j].classOf(medians[j])

@@ -197,7 +197,7 @@ func (w *freeWalker) walkNumeric(t *forest.Tree, wn []wnode, f int32, i int32, l
 	for {
 		n := &wn[i]
 		if n.flags&wLeaf != 0 {
-			if d := t.Value[i] - own; d != 0 {
+			if d := n.leafValue() - own; d != 0 {
 				b.addNumeric(lo, hi, m, z, t.Class, d)
 			}
 			return
