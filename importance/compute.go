@@ -30,6 +30,7 @@ type worker struct {
 	ndcg        metrics.NDCGScratch
 	groupS      []float64
 	groupL      []float64
+	groupG      []float64
 }
 
 func (r *run) newWorker() *worker {
@@ -385,7 +386,14 @@ func (r *run) ndcgUnit(w *worker, u int, out []float64, first int) {
 	}
 	r.valid[u] = true
 	out[lay.denMetric] += wt
-	dcg := func() float64 { return metrics.DCG(s, lab, r.k, r.cfg.Gain, &w.ndcg) / ideal }
+	if cap(w.groupG) < n {
+		w.groupG = make([]float64, n)
+	}
+	gains := w.groupG[:n]
+	for i, l := range lab {
+		gains[i] = r.cfg.Gain.Of(l)
+	}
+	dcg := func() float64 { return metrics.DCGGains(s, gains, r.k, &w.ndcg) / ideal }
 	copy(s, w.chunkBase[first:first+n])
 	base := dcg()
 	out[lay.base] += wt * base

@@ -167,17 +167,39 @@ func DCG(scores, labels []float64, k int, gain Gain, scratch *NDCGScratch) float
 	if scratch == nil {
 		scratch = new(NDCGScratch)
 	}
-	items := slices.Grow(scratch.items[:0], n)[:n]
-	scratch.items = items
-	for i, s := range scores {
-		r := labels[i]
+	gains := slices.Grow(scratch.gains[:0], n)[:n]
+	scratch.gains = gains
+	for i, r := range labels {
 		if !(r >= 0) {
 			return math.NaN()
 		}
+		gains[i] = gain.Of(r)
+	}
+	return DCGGains(scores, gains, k, scratch)
+}
+
+// DCGGains is DCG with the gains of the items given instead of their
+// relevance grades (gain.Of already applied), for callers that score one
+// group many times. Gains must be non-negative and not NaN (not checked).
+func DCGGains(scores, gains []float64, k int, scratch *NDCGScratch) float64 {
+	sameLength("DCGGains", len(scores), len(gains))
+	n := len(scores)
+	if n == 0 {
+		return math.NaN()
+	}
+	if k <= 0 || k > n {
+		k = n
+	}
+	if scratch == nil {
+		scratch = new(NDCGScratch)
+	}
+	items := slices.Grow(scratch.items[:0], n)[:n]
+	scratch.items = items
+	for i, s := range scores {
 		if s != s {
 			s = math.Inf(-1)
 		}
-		items[i] = rankedGain{score: s, gain: gain.Of(r)}
+		items[i] = rankedGain{score: s, gain: gains[i]}
 	}
 	sortDescending(items)
 	var dcg float64
