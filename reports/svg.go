@@ -83,7 +83,7 @@ const (
 // with axes only.
 func newShareChart(title string, rows []chartInput) shareChart {
 	c := shareChart{Title: title, PlotX: chartLabelW, PlotW: chartPlotW, PlotTop: chartTop}
-	c.ChangeX = c.PlotX + c.PlotW + 12
+	c.ChangeX = c.PlotX + c.PlotW + 26 // clear of the last tick label, centred on the axis end
 	c.Width = c.PlotX + c.PlotW + chartChangeW
 	c.LegendY, c.TickY = 16, chartTop-8
 	top := 0.0
