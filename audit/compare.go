@@ -313,7 +313,7 @@ func (c *comparer) trafficFlags() {
 		if c.in.BaselineTraffic != nil {
 			if d := h.MissingCandidate - h.MissingBaseline; d >= c.p.MissingSpikePoints {
 				c.add(Flag{Kind: KindMissingSpike, Feature: name, Severity: sev, Sample: "candidate traffic",
-					Evidence: []Evidence{ev("missing_baseline", h.MissingBaseline), ev("missing_candidate", h.MissingCandidate)},
+					Evidence: []Evidence{ev("missing_baseline_share", h.MissingBaseline), ev("missing_candidate_share", h.MissingCandidate)},
 					Message:  fmt.Sprintf("missing in %.1f%% of candidate rows, %.1f%% in the baseline week", 100*h.MissingCandidate, 100*h.MissingBaseline)})
 			}
 			if h.PSI >= c.p.PSIWarn {
@@ -328,7 +328,7 @@ func (c *comparer) trafficFlags() {
 		} else if h.MissingCandidate >= c.p.MissingHighShare {
 			if dc := defaultCoverShare(c.in.Candidate, name); dc == dc && dc < c.p.RareDefaultCover {
 				c.add(Flag{Kind: KindMissingSpike, Feature: name, Severity: sev, Sample: "candidate traffic",
-					Evidence: []Evidence{ev("missing_candidate", h.MissingCandidate), ev("default_cover_share", dc)},
+					Evidence: []Evidence{ev("missing_candidate_share", h.MissingCandidate), ev("default_cover_share", dc)},
 					Message:  fmt.Sprintf("missing in %.1f%% of rows, but only %.1f%% of the training cover took the default branches", 100*h.MissingCandidate, 100*dc)})
 			}
 		}

@@ -585,8 +585,8 @@ func TestCompareWeeklyWatch(t *testing.T) {
 			}
 		}
 		f := flagOf(t, r, "response_rate", audit.KindMissingSpike)
-		if evidence(t, f, "missing_baseline").Value != healthOf(t, r, "response_rate").MissingBaseline ||
-			evidence(t, f, "missing_candidate").Value != 0.3 {
+		if evidence(t, f, "missing_baseline_share").Value != healthOf(t, r, "response_rate").MissingBaseline ||
+			evidence(t, f, "missing_candidate_share").Value != 0.3 {
 			t.Errorf("missing-spike evidence %+v", f.Evidence)
 		}
 	})
@@ -740,7 +740,7 @@ func TestCompareTrafficFaults(t *testing.T) {
 
 	t.Run("missing-spike without a baseline sample", func(t *testing.T) {
 		f := flagOf(t, r, "photo_count", audit.KindMissingSpike)
-		if !(math.Abs(evidence(t, f, "missing_candidate").Value-0.6) <= 1e-12) ||
+		if !(math.Abs(evidence(t, f, "missing_candidate_share").Value-0.6) <= 1e-12) ||
 			!(math.Abs(evidence(t, f, "default_cover_share").Value-0.02) <= 1e-12) {
 			t.Errorf("evidence %+v, want missing 0.6 and default cover 0.02", f.Evidence)
 		}
