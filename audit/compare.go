@@ -339,6 +339,15 @@ func ev(name string, v float64) Evidence {
 	return Evidence{Name: name, Value: v, Lo: math.NaN(), Hi: math.NaN()}
 }
 
+// pct writes a share as a percentage: one decimal, or two significant
+// digits below 0.1% so a small share does not read as zero.
+func pct(v float64) string {
+	if v != 0 && math.Abs(v) < 0.001 {
+		return fmt.Sprintf("%.2g%%", 100*v)
+	}
+	return fmt.Sprintf("%.1f%%", 100*v)
+}
+
 func fmtValue(v float64) string {
 	return fmt.Sprintf("%.6g", v)
 }
@@ -533,12 +542,12 @@ func (c *comparer) ledger() {
 			if row.Ratio <= 1/c.p.CollapseFactor && (noInterval || row.RatioHi < 1) {
 				c.add(Flag{Kind: KindCollapsed, Feature: name, Severity: SeverityWarn,
 					Evidence: []Evidence{ev("baseline_share", sb), ev("candidate_share", sc), e},
-					Message:  fmt.Sprintf("share of %s fell from %.1f%% to %.1f%% (x%.2f)", c.p.Measure, 100*sb, 100*sc, row.Ratio)})
+					Message:  fmt.Sprintf("share of %s fell from %s to %s (x%.2g)", c.p.Measure, pct(sb), pct(sc), row.Ratio)})
 			}
 			if row.Ratio >= c.p.SurgeFactor && (noInterval || row.RatioLo > 1) {
 				c.add(Flag{Kind: KindSurged, Feature: name, Severity: SeverityWarn,
 					Evidence: []Evidence{ev("baseline_share", sb), ev("candidate_share", sc), e},
-					Message:  fmt.Sprintf("share of %s rose from %.1f%% to %.1f%% (x%.2f)", c.p.Measure, 100*sb, 100*sc, row.Ratio)})
+					Message:  fmt.Sprintf("share of %s rose from %s to %s (x%.3g)", c.p.Measure, pct(sb), pct(sc), row.Ratio)})
 			}
 		}
 		c.r.Ledger = append(c.r.Ledger, row)
