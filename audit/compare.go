@@ -276,7 +276,8 @@ func (c *comparer) trafficFlags() {
 				continue // all missing: missing-spike's business
 			}
 			top, share := topValue(col)
-			single := singleBranch(s.e, name, col)
+			th := thresholds(s.e, name)
+			single := singleBranch(th, s.e.Rule, col)
 			if share >= c.p.ConstantShare || single {
 				msg := fmt.Sprintf("%s: %.1f%% of rows hold the value %s while the model splits on it", s.label, 100*share, fmtValue(top))
 				if single && share < c.p.ConstantShare {
@@ -286,7 +287,7 @@ func (c *comparer) trafficFlags() {
 					Evidence: []Evidence{ev("top_value", top), ev("top_value_share", share)}, Message: msg})
 				continue
 			}
-			if th := thresholds(s.e, name); len(th) > 0 {
+			if len(th) > 0 {
 				lo, hi := minMax(col)
 				frac := unreachableGainShare(s.e, name, lo, hi)
 				if frac >= c.p.OutOfRangeGainShare/2 {
@@ -353,10 +354,10 @@ func fmtValue(v float64) string {
 }
 
 // singleBranch reports whether every row of col takes the same branch at
-// all of e's numeric splits on the feature (no missing rows, all values in
-// one interval between consecutive thresholds).
-func singleBranch(e *forest.Ensemble, name string, col []float64) bool {
-	th := thresholds(e, name)
+// all of a model's numeric splits on the feature, given their sorted
+// thresholds th and the model's rule (no missing rows, all values in one
+// interval between consecutive thresholds).
+func singleBranch(th []float64, rule forest.Rule, col []float64) bool {
 	if len(th) == 0 {
 		return false
 	}
@@ -366,7 +367,7 @@ func singleBranch(e *forest.Ensemble, name string, col []float64) bool {
 			return false
 		}
 		var b int
-		if e.Rule == forest.LessThanFloat32 {
+		if rule == forest.LessThanFloat32 {
 			x := float64(float32(v))
 			b = sort.Search(len(th), func(i int) bool { return th[i] > x })
 		} else {

@@ -28,6 +28,7 @@ type valueClasses struct {
 	// categorical mode: class per distinct value (NaN separately)
 	values  []float64       // sorted distinct non-NaN values
 	valueOf map[float64]int // value -> class
+	all     []uint64        // categorical: the set of every class (walks start from it)
 	n       int             // total number of classes
 }
 
@@ -137,6 +138,10 @@ func buildClasses(e *forest.Ensemble, cols [][]float64, medians []float64) []val
 				c.valueOf[v] = k
 			}
 			c.n = len(c.values) + 1
+			c.all = make([]uint64, (c.n+63)/64)
+			for k := 0; k < c.n; k++ {
+				c.all[k/64] |= 1 << (k % 64)
+			}
 			continue
 		}
 		t := ths[j]

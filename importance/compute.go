@@ -52,7 +52,7 @@ func (r *run) newWorker() *worker {
 	for j := range w.builders {
 		w.builders[j] = newStepBuilder(&r.vc[j], k)
 	}
-	w.walker = freeWalker{e: r.e, splits: r.splits, x: w.x, xgb: r.e.Rule == forest.LessThanFloat32}
+	w.walker = freeWalker{e: r.e, x: w.x, xgb: r.e.Rule == forest.LessThanFloat32}
 	return w
 }
 
@@ -82,7 +82,6 @@ func (r *run) nPert() int { return 2 + len(r.perms) }
 func (r *run) chunk(w *worker, u0, u1 int) {
 	e, f, lay := r.e, r.f, &r.lay
 	nf := e.NumFeatures()
-	K := e.NumClass
 	shuffled := !r.metric.additive()
 	np := r.nPert()
 	if shuffled {
@@ -163,7 +162,6 @@ func (r *run) chunk(w *worker, u0, u1 int) {
 			r.ndcgUnit(w, u, out, local-len(r.units[u]))
 		}
 	}
-	_ = K
 }
 
 // scoreRow walks every tree for one row: the row's margin, its path usage,
@@ -177,7 +175,7 @@ func (r *run) scoreRow(w *worker, row int) {
 		w.tests[j] = 0
 		w.pathSeen[j] = 0
 		w.state[j].tree = 0
-		w.builders[j].start(int32(row))
+		w.builders[j].start()
 	}
 	copy(w.margin, e.BaseMargin)
 	xgb := e.Rule == forest.LessThanFloat32
@@ -226,11 +224,7 @@ func (r *run) scoreRow(w *worker, row int) {
 			fj := wn[start].feat
 			vc := &r.vc[fj]
 			if vc.categorical {
-				all := make([]uint64, (vc.n+63)/64)
-				for c := 0; c < vc.n; c++ {
-					all[c/64] |= 1 << (c % 64)
-				}
-				w.walker.walkSet(t, ns, fj, start, all, own, w.builders[fj])
+				w.walker.walkSet(t, ns, fj, start, vc.all, own, w.builders[fj])
 			}
 		}
 		// numeric features: one pass along the path. Only a feature's own
@@ -379,12 +373,10 @@ func (r *run) ndcgUnit(w *worker, u int, out []float64, first int) {
 	ideal := metrics.IdealDCG(lab, r.k, r.cfg.Gain, &w.ndcg)
 	if !(ideal > 0) {
 		if r.cfg.NoRelevant == metrics.NoRelevantZero {
-			r.valid[u] = true
 			out[lay.denMetric] += wt
 		}
 		return
 	}
-	r.valid[u] = true
 	out[lay.denMetric] += wt
 	if cap(w.groupG) < n {
 		w.groupG = make([]float64, n)

@@ -151,9 +151,6 @@ func ResolveMetric(name string, k int, task forest.Task, hasLabel bool) (Metric,
 		if !hasLabel && m != MetricMeanAbsDelta {
 			return 0, 0, fmt.Errorf("metric %s needs a label column; without labels only mean_abs_delta is available", m)
 		}
-		if m == MetricNDCG && task != forest.TaskRanking {
-			// allowed (e.g. a binary model used for ranking) if groups exist; checked later
-		}
 		return m, k, nil
 	}
 	if !hasLabel {

@@ -340,7 +340,6 @@ type run struct {
 	chunks    [][2]int // unit ranges
 	lay       layout
 	sums      []float64 // units x lay.cols
-	valid     []bool    // unit counts for the metric
 	shapOn    []bool    // unit is in the SHAP subsample
 	shapAt    []int32   // per row: offset of its |SHAP| values in shapAbs, -1 if not sampled
 	shapAbs   []float64 // sampled rows x features, |SHAP| summed over classes
@@ -475,7 +474,6 @@ func newRun(e *forest.Ensemble, f *frame.Frame, cfg Config, metric Metric, k int
 		r.colSums = make([][]float64, len(r.chunks))
 	}
 	r.sums = make([]float64, len(r.units)*r.lay.cols)
-	r.valid = make([]bool, len(r.units))
 	if cfg.SHAP {
 		x, err := treeshap.New(e)
 		if err != nil {

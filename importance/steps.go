@@ -29,13 +29,12 @@ type stepBuilder struct {
 	k    int
 	diff []float64 // numeric: (nb+1)*k difference array
 	mark []uint64  // numeric: bit per bin touched this row (bins come out sorted)
-	row  int32
-	used bool // some piece was emitted for the current row
+	used bool      // some piece was emitted for the current row
 	sf   stepFunction
 }
 
 func newStepBuilder(vc *valueClasses, k int) *stepBuilder {
-	b := &stepBuilder{vc: vc, k: k, row: -1}
+	b := &stepBuilder{vc: vc, k: k}
 	if vc.categorical {
 		b.sf.dense = make([]float64, vc.n*k)
 	} else {
@@ -48,8 +47,7 @@ func newStepBuilder(vc *valueClasses, k int) *stepBuilder {
 }
 
 // start prepares the builder for a new row.
-func (b *stepBuilder) start(row int32) {
-	b.row = row
+func (b *stepBuilder) start() {
 	b.used = false
 	if b.vc.categorical {
 		clear(b.sf.dense)
@@ -185,10 +183,9 @@ func (s *stepFunction) at1(vc *valueClasses, c int) float64 {
 // freeWalker walks one tree for one row with one feature left free: both
 // branches at that feature's splits, the row's own branch elsewhere.
 type freeWalker struct {
-	e      *forest.Ensemble
-	splits [][]nodeSplit
-	x      []float64 // the row, by feature
-	xgb    bool      // the ensemble compares float32(x) < threshold
+	e   *forest.Ensemble
+	x   []float64 // the row, by feature
+	xgb bool      // the ensemble compares float32(x) < threshold
 }
 
 // walkNumeric explores node i with class state [lo, hi) + missing/zero

@@ -4,6 +4,7 @@ import (
 	"encoding/csv"
 	"fmt"
 	"io"
+	"math"
 	"strconv"
 
 	"splitledger/importance"
@@ -74,7 +75,7 @@ func ledgerJSON(t *importance.Table) tableJSON {
 		SHAPRows: t.SHAPRows, Notes: t.Notes}
 	if t.Metric != 0 {
 		q := estJSON(t.Quality)
-		q.Share = Num(nanValue)
+		q.Share = Num(math.NaN())
 		out.Quality = &q
 	}
 	for _, f := range t.Features {

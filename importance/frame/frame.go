@@ -5,6 +5,7 @@ package frame
 
 import (
 	"fmt"
+	"math"
 	"sort"
 )
 
@@ -101,7 +102,7 @@ func (f *Frame) Median(j int) float64 {
 		}
 	}
 	if len(v) == 0 {
-		return nan()
+		return math.NaN()
 	}
 	sort.Float64s(v)
 	m := len(v) / 2

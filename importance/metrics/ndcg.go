@@ -157,25 +157,28 @@ func NDCG(scores, labels []float64, k int, gain Gain, scratch *NDCGScratch) floa
 // relevance gives NaN. scratch may be nil, at the cost of allocating.
 func DCG(scores, labels []float64, k int, gain Gain, scratch *NDCGScratch) float64 {
 	sameLength("DCG", len(scores), len(labels))
-	n := len(scores)
-	if n == 0 {
-		return math.NaN()
-	}
-	if k <= 0 || k > n {
-		k = n
-	}
 	if scratch == nil {
 		scratch = new(NDCGScratch)
 	}
-	gains := slices.Grow(scratch.gains[:0], n)[:n]
+	gains, ok := gradeGains(labels, gain, scratch)
+	if !ok {
+		return math.NaN()
+	}
+	return DCGGains(scores, gains, k, scratch)
+}
+
+// gradeGains writes the gain of every relevance grade into the scratch's
+// gain buffer; ok is false at the first negative or NaN grade.
+func gradeGains(labels []float64, gain Gain, scratch *NDCGScratch) (gains []float64, ok bool) {
+	gains = slices.Grow(scratch.gains[:0], len(labels))[:len(labels)]
 	scratch.gains = gains
 	for i, r := range labels {
 		if !(r >= 0) {
-			return math.NaN()
+			return nil, false
 		}
 		gains[i] = gain.Of(r)
 	}
-	return DCGGains(scores, gains, k, scratch)
+	return gains, true
 }
 
 // DCGGains is DCG with the gains of the items given instead of their
@@ -236,13 +239,9 @@ func IdealDCG(labels []float64, k int, gain Gain, scratch *NDCGScratch) float64 
 	if scratch == nil {
 		scratch = new(NDCGScratch)
 	}
-	gains := slices.Grow(scratch.gains[:0], n)[:n]
-	scratch.gains = gains
-	for i, r := range labels {
-		if !(r >= 0) {
-			return math.NaN()
-		}
-		gains[i] = gain.Of(r)
+	gains, ok := gradeGains(labels, gain, scratch)
+	if !ok {
+		return math.NaN()
 	}
 	if n <= insertionLimit {
 		for i := 1; i < n; i++ {

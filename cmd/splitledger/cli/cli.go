@@ -11,7 +11,6 @@ import (
 	"os"
 	"path/filepath"
 	"runtime/debug"
-	"sort"
 	"strings"
 
 	"github.com/spf13/pflag"
@@ -168,11 +167,6 @@ func mainHelp(w io.Writer, cmds []command) {
 	fmt.Fprintf(w, "splitledger %s: how each input feature's role changed between two tree-model versions\n\n", Version)
 	fmt.Fprintln(w, "Usage: splitledger COMMAND [flags] [args]")
 	fmt.Fprintln(w, "\nCommands:")
-	names := make([]string, 0, len(cmds))
-	for _, c := range cmds {
-		names = append(names, c.name)
-	}
-	_ = sort.StringsAreSorted(names)
 	for _, c := range cmds {
 		fmt.Fprintf(w, "  %-11s %s\n", c.name, c.summary)
 	}

@@ -3,6 +3,7 @@ package cli
 import (
 	"fmt"
 	"io"
+	"math"
 	"os"
 	"path/filepath"
 	"runtime"
@@ -340,13 +341,12 @@ func historyRun(rep *audit.Report) history.Run {
 		if t == nil {
 			return
 		}
-		nan := func() float64 { return mathNaN }
 		for _, f := range t.Features {
 			fl := flags[f.Feature]
 			run.Rows = append(run.Rows,
-				history.FeatureRow{Feature: f.Feature, Version: version, Measure: "split_count", Value: float64(f.SplitCount), Lo: nan(), Hi: nan(), Share: f.SplitShare, Flags: fl},
-				history.FeatureRow{Feature: f.Feature, Version: version, Measure: "total_gain", Value: f.TotalGain, Lo: nan(), Hi: nan(), Share: f.GainShare, Flags: fl},
-				history.FeatureRow{Feature: f.Feature, Version: version, Measure: "total_cover", Value: f.TotalCover, Lo: nan(), Hi: nan(), Share: f.CoverShare, Flags: fl},
+				history.FeatureRow{Feature: f.Feature, Version: version, Measure: "split_count", Value: float64(f.SplitCount), Lo: math.NaN(), Hi: math.NaN(), Share: f.SplitShare, Flags: fl},
+				history.FeatureRow{Feature: f.Feature, Version: version, Measure: "total_gain", Value: f.TotalGain, Lo: math.NaN(), Hi: math.NaN(), Share: f.GainShare, Flags: fl},
+				history.FeatureRow{Feature: f.Feature, Version: version, Measure: "total_cover", Value: f.TotalCover, Lo: math.NaN(), Hi: math.NaN(), Share: f.CoverShare, Flags: fl},
 			)
 			for m, est := range f.Traffic {
 				run.Rows = append(run.Rows, history.FeatureRow{Feature: f.Feature, Version: version,

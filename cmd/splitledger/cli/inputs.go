@@ -1,7 +1,6 @@
 package cli
 
 import (
-	"math"
 	"slices"
 	"strings"
 
@@ -163,8 +162,6 @@ func oneArg(args []string, what string) (string, error) {
 	}
 	return args[0], nil
 }
-
-var mathNaN = math.NaN()
 
 // oneOf checks that an option's value is one of the allowed words.
 func oneOf(option, value string, allowed ...string) error {

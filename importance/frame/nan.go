@@ -1,5 +1,0 @@
-package frame
-
-import "math"
-
-func nan() float64 { return math.NaN() }

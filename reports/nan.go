@@ -1,5 +1,0 @@
-package reports
-
-import "math"
-
-var nanValue = math.NaN()
