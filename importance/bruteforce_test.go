@@ -251,3 +251,55 @@ func headRows(f *frame.Frame, n int) *frame.Frame {
 // squaredErrorOnly is not a public metric: rowLoss's default branch gives
 // the squared error, and meanLoss takes no root for it.
 const squaredErrorOnly = Metric(200)
+
+// AUC drops use the same shuffles as NDCG; missing-break and freeze are
+// deterministic. All must equal the AUC of the rescored rows.
+func TestDropsMatchBruteForceAUC(t *testing.T) {
+	e, f := loadFixture(t, "binary")
+	f = headRows(f, 400)
+	cfg := Config{Metric: "auc", Replicates: 10, Repeats: 3}
+	tab, err := MeasureModel(e, "binary", f, cfg)
+	if err != nil {
+		t.Fatal(err)
+	}
+	cfg = cfg.withDefaults()
+	r, err := newRun(e, f, cfg, MetricAUC, 0)
+	if err != nil {
+		t.Fatal(err)
+	}
+	cols, n := r.cols, f.Rows
+	auc := func(m []float64) float64 { return metrics.AUC(m, f.Label, nil) }
+	q0 := auc(scoreRows(e, cols, n))
+	if !within(tab.Quality.Value, q0, 1e-12) {
+		t.Fatalf("quality %v, brute force %v", tab.Quality.Value, q0)
+	}
+	for j := range e.FeatureNames {
+		nanCol, fz := make([]float64, n), make([]float64, n)
+		med := medianOf(cols[j])
+		for row := range nanCol {
+			nanCol[row], fz[row] = math.NaN(), med
+		}
+		perm := 0.0
+		for _, p := range r.perms {
+			c := make([]float64, n)
+			for row := range c {
+				c[row] = cols[j][p[row]]
+			}
+			perm += q0 - auc(scoreRows(e, withColumn(cols, j, c), n))
+		}
+		perm /= float64(len(r.perms))
+		got := tab.Features[j].Traffic
+		for _, c := range []struct {
+			m    TrafficMeasure
+			want float64
+		}{
+			{PermutationDrop, perm},
+			{MissingBreakDrop, q0 - auc(scoreRows(e, withColumn(cols, j, nanCol), n))},
+			{FreezeDrop, q0 - auc(scoreRows(e, withColumn(cols, j, fz), n))},
+		} {
+			if !within(got[c.m].Value, c.want, 1e-12) {
+				t.Errorf("%s measure %d: %v, brute force %v", e.FeatureNames[j], c.m, got[c.m].Value, c.want)
+			}
+		}
+	}
+}

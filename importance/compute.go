@@ -6,27 +6,42 @@ import (
 	"splitledger/importance/parallel"
 )
 
+// blockRows is how many rows go through the ensemble together: each leaf-
+// mask tree is read once per block instead of once per row, so its records
+// stay in the nearest cache while the block's rows use them.
+const blockRows = 1
+
+// rowState is one row's results from its pass over the ensemble.
+type rowState struct {
+	x        []float64 // the row, by feature
+	cls      []int32   // the row's value class per feature
+	table    []int     // per feature: the row's row of the leaf-mask word-index table
+	margin   []float64 // per output class
+	tests    []float64 // per feature: tests on the row's paths
+	present  []bool    // per feature: some path tests it
+	builders []*stepBuilder
+}
+
 // worker holds one goroutine's scratch space.
 type worker struct {
-	x        []float64
-	margin   []float64
+	rows     [blockRows]*rowState
 	zero     []float64
 	delta    []float64
 	pert     []float64
-	builders []*stepBuilder
 	pathSeen []int32 // stamp per feature: tree index + 1 when met on the path
 	onPath   []int32 // first path node of each feature met on the current tree's path, in order
 	path     []int32 // internal nodes of the current tree's own path, root first
 	state    []pathState
-	present  []bool
-	tests    []float64
 	loss     *rowLoss
 	walker   freeWalker
+	masks    maskScratch
 	col      []float64 // additive metrics: the chunk's per-class loss sums (see run.colSums)
 	// shuffled metrics: margins of the chunk's rows, per perturbation
 	// layout [row][feature][0:miss 1:freeze 2..: repeats] (K=1 models)
 	chunkScores []float64
 	chunkBase   []float64
+	chunkRows   []int32 // the chunk's rows in unit order
+	chunkUnit   []int32 // the unit of each of them
 	ndcg        metrics.NDCGScratch
 	groupS      []float64
 	groupL      []float64
@@ -37,22 +52,29 @@ func (r *run) newWorker() *worker {
 	nf := r.e.NumFeatures()
 	k := r.e.NumClass
 	w := &worker{
-		x:        make([]float64, nf),
-		margin:   make([]float64, k),
 		zero:     make([]float64, k),
 		delta:    make([]float64, k),
 		pert:     make([]float64, k),
-		builders: make([]*stepBuilder, nf),
 		pathSeen: make([]int32, nf),
 		state:    make([]pathState, nf),
-		present:  make([]bool, nf),
-		tests:    make([]float64, nf),
 		loss:     newRowLoss(r.metric, r.e),
 	}
-	for j := range w.builders {
-		w.builders[j] = newStepBuilder(&r.vc[j], k)
+	for i := range w.rows {
+		rs := &rowState{
+			x:        make([]float64, nf),
+			cls:      make([]int32, nf),
+			table:    make([]int, nf),
+			margin:   make([]float64, k),
+			tests:    make([]float64, nf),
+			present:  make([]bool, nf),
+			builders: make([]*stepBuilder, nf),
+		}
+		for j := range rs.builders {
+			rs.builders[j] = newStepBuilder(&r.vc[j], k)
+		}
+		w.rows[i] = rs
 	}
-	w.walker = freeWalker{e: r.e, x: w.x, xgb: r.e.Rule == forest.LessThanFloat32}
+	w.walker = freeWalker{e: r.e, xgb: r.e.Rule == forest.LessThanFloat32}
 	return w
 }
 
@@ -78,17 +100,22 @@ func (r *run) compute() {
 // perturbations per feature for shuffled metrics: missing, freeze, repeats
 func (r *run) nPert() int { return 2 + len(r.perms) }
 
-// chunk processes units [u0, u1).
+// chunk processes units [u0, u1): the rows in blocks of blockRows, then,
+// for shuffled metrics, the units' metric terms.
 func (r *run) chunk(w *worker, u0, u1 int) {
-	e, f, lay := r.e, r.f, &r.lay
-	nf := e.NumFeatures()
+	f, lay := r.f, &r.lay
+	nf := r.e.NumFeatures()
 	shuffled := !r.metric.additive()
 	np := r.nPert()
-	if shuffled {
-		rows := 0
-		for u := u0; u < u1; u++ {
-			rows += len(r.units[u])
+	w.chunkRows, w.chunkUnit = w.chunkRows[:0], w.chunkUnit[:0]
+	for u := u0; u < u1; u++ {
+		for _, row := range r.units[u] {
+			w.chunkRows = append(w.chunkRows, row)
+			w.chunkUnit = append(w.chunkUnit, int32(u))
 		}
+	}
+	rows := len(w.chunkRows)
+	if shuffled {
 		if cap(w.chunkScores) < rows*nf*np {
 			w.chunkScores = make([]float64, rows*nf*np)
 			w.chunkBase = make([]float64, rows)
@@ -96,10 +123,14 @@ func (r *run) chunk(w *worker, u0, u1 int) {
 		w.chunkScores = w.chunkScores[:rows*nf*np]
 		w.chunkBase = w.chunkBase[:rows]
 	}
-	local := 0
-	for u := u0; u < u1; u++ {
-		out := r.sums[u*lay.cols : (u+1)*lay.cols]
-		for _, row := range r.units[u] {
+	for b0 := 0; b0 < rows; b0 += blockRows {
+		block := w.chunkRows[b0:min(b0+blockRows, rows)]
+		r.scoreBlock(w, block)
+		for i, row := range block {
+			rs := w.rows[i]
+			local := b0 + i
+			u := int(w.chunkUnit[local])
+			out := r.sums[u*lay.cols : (u+1)*lay.cols]
 			wt := 1.0
 			if f.Weight != nil {
 				wt = f.Weight[row]
@@ -108,13 +139,12 @@ func (r *run) chunk(w *worker, u0, u1 int) {
 			if f.Label != nil {
 				y = f.Label[row]
 			}
-			r.scoreRow(w, int(row))
 			out[lay.denRows] += wt
 			for j := 0; j < nf; j++ {
-				if w.present[j] {
+				if rs.present[j] {
 					out[lay.path+j] += wt
 				}
-				out[lay.tests+j] += wt * w.tests[j]
+				out[lay.tests+j] += wt * rs.tests[j]
 			}
 			if r.shapAt != nil && r.shapAt[row] >= 0 {
 				abs := r.shapAbs[r.shapAt[row] : int(r.shapAt[row])+nf]
@@ -124,62 +154,127 @@ func (r *run) chunk(w *worker, u0, u1 int) {
 				}
 			}
 			if !shuffled {
-				r.additiveRow(w, out, wt, y)
+				r.additiveRow(w, rs, out, wt, y)
 				continue
 			}
-			// shuffled metrics: keep the perturbed margins of this row
-			w.chunkBase[local] = w.margin[0]
-			base := local * nf * np
-			for j := 0; j < nf; j++ {
-				s := w.chunkScores[base+j*np : base+(j+1)*np]
-				b := w.builders[j]
-				if !b.used {
-					for i := range s {
-						s[i] = w.margin[0]
-					}
-					continue
-				}
-				sf := &b.sf
-				vc := &r.vc[j]
-				s[0] = w.margin[0] + sf.at1(vc, vc.missingClass())
-				s[1] = w.margin[0] + sf.at1(vc, r.medianC[j])
-				for k := range r.perms {
-					s[2+k] = w.margin[0] + sf.at1(vc, int(r.permClass[k][j][row]))
-				}
+			if r.metric == MetricAUC { // AUC is computed over the sample after the pass
+				out[lay.denMetric] += wt
 			}
-			if r.aucScores != nil {
-				r.aucBase[row] = w.margin[0]
-				for j := 0; j < nf; j++ {
-					s := w.chunkScores[base+j*np : base+(j+1)*np]
-					for i, v := range s {
-						r.aucScores[j*np+i][row] = v
-					}
-				}
-			}
-			local++
+			r.keepPerturbed(w, rs, int(row), local)
 		}
-		if shuffled && r.metric == MetricNDCG {
-			r.ndcgUnit(w, u, out, local-len(r.units[u]))
+	}
+	if shuffled && r.metric == MetricNDCG {
+		first := 0
+		for u := u0; u < u1; u++ {
+			r.ndcgUnit(w, u, r.sums[u*lay.cols:(u+1)*lay.cols], first)
+			first += len(r.units[u])
 		}
 	}
 }
 
-// scoreRow walks every tree for one row: the row's margin, its path usage,
-// and every feature's step function (free walks of the features met on the
-// row's own paths only: other features cannot move this tree's leaf).
-func (r *run) scoreRow(w *worker, row int) {
+// keepPerturbed stores the margins of one row (local index in the chunk)
+// under every perturbation, for the shuffled metrics.
+func (r *run) keepPerturbed(w *worker, rs *rowState, row, local int) {
+	nf := r.e.NumFeatures()
+	np := r.nPert()
+	w.chunkBase[local] = rs.margin[0]
+	base := local * nf * np
+	for j := 0; j < nf; j++ {
+		s := w.chunkScores[base+j*np : base+(j+1)*np]
+		b := rs.builders[j]
+		if !b.used {
+			for i := range s {
+				s[i] = rs.margin[0]
+			}
+			continue
+		}
+		sf := &b.sf
+		vc := &r.vc[j]
+		m, own := rs.margin[0], int(rs.cls[j])
+		// the row's own class changes nothing, exactly (the step sums may
+		// carry rounding there)
+		at := func(c int) float64 {
+			if c == own {
+				return m
+			}
+			return m + sf.at1(vc, c)
+		}
+		s[0] = at(vc.missingClass())
+		s[1] = at(r.medianC[j])
+		for k := range r.perms {
+			s[2+k] = at(int(r.permClass[k][j][row]))
+		}
+	}
+	if r.aucScores != nil {
+		r.aucBase[row] = rs.margin[0]
+		for j := 0; j < nf; j++ {
+			s := w.chunkScores[base+j*np : base+(j+1)*np]
+			for i, v := range s {
+				r.aucScores[j*np+i][row] = v
+			}
+		}
+	}
+}
+
+// scoreBlock runs a block of rows through every tree: each row's margin,
+// path usage and every feature's step function (only features met on the
+// row's own paths can move its leaves). Leaf-mask trees go tree by tree
+// over the block; the other trees are walked row by row.
+func (r *run) scoreBlock(w *worker, block []int32) {
 	e := r.e
-	for j := range w.x {
-		w.x[j] = r.cols[j][row]
-		w.present[j] = false
-		w.tests[j] = 0
+	for i, row := range block {
+		rs := w.rows[i]
+		for j := range rs.x {
+			rs.x[j] = r.cols[j][row]
+			rs.present[j] = false
+			rs.tests[j] = 0
+			rs.builders[j].start()
+			if r.classOf != nil {
+				rs.cls[j] = r.classOf[j][row]
+			} else {
+				rs.cls[j] = int32(r.vc[j].classOf(rs.x[j]))
+			}
+		}
+		copy(rs.margin, e.BaseMargin)
+		r.masks.rowTable(rs)
+	}
+	rowsIn := w.rows[:len(block)]
+	for ti := range r.masks.trees {
+		if m := &r.masks.trees[ti]; m.groups0 >= 0 {
+			for _, rs := range rowsIn {
+				r.masks.scoreMaskTree(&w.masks, rs, m)
+			}
+		}
+	}
+	if r.masks.walked > 0 {
+		for _, rs := range rowsIn {
+			r.walkTrees(w, rs)
+		}
+	}
+	for _, rs := range rowsIn {
+		for _, b := range rs.builders {
+			if b.used {
+				b.finish()
+			}
+		}
+	}
+}
+
+// walkTrees adds one row's part of the trees that do not take the leaf-mask
+// form (category sets, LightGBM's missing rules, more than 64 leaves): the
+// row's own path, then free walks of the features met on it.
+func (r *run) walkTrees(w *worker, rs *rowState) {
+	e := r.e
+	for j := range w.pathSeen {
 		w.pathSeen[j] = 0
 		w.state[j].tree = 0
-		w.builders[j].start()
 	}
-	copy(w.margin, e.BaseMargin)
+	w.walker.x = rs.x
 	xgb := e.Rule == forest.LessThanFloat32
 	for ti := range e.Trees {
+		if r.masks.trees[ti].groups0 >= 0 {
+			continue
+		}
 		t := &e.Trees[ti]
 		ns := r.splits[ti]
 		stamp := int32(ti + 1)
@@ -195,13 +290,13 @@ func (r *run) scoreRow(w *worker, row int) {
 			}
 			fj := n.feat
 			w.path = append(w.path, i)
-			w.tests[fj]++
+			rs.tests[fj]++
 			if w.pathSeen[fj] != stamp {
 				w.pathSeen[fj] = stamp
-				w.present[fj] = true
+				rs.present[fj] = true
 				w.onPath = append(w.onPath, i)
 			}
-			x := w.x[fj]
+			x := rs.x[fj]
 			switch {
 			case n.flags&wSlow != 0:
 				i = forest.Next(t, &t.Nodes[i], x, e.Rule)
@@ -218,13 +313,13 @@ func (r *run) scoreRow(w *worker, row int) {
 			}
 		}
 		own := wn[i].leafValue()
-		w.margin[t.Class] += own
+		rs.margin[t.Class] += own
 		// categorical features: one set walk from their first path node
 		for _, start := range w.onPath {
 			fj := wn[start].feat
 			vc := &r.vc[fj]
 			if vc.categorical {
-				w.walker.walkSet(t, ns, fj, start, vc.all, own, w.builders[fj])
+				w.walker.walkSet(t, ns, fj, start, vc.all, own, rs.builders[fj])
 			}
 		}
 		// numeric features: one pass along the path. Only a feature's own
@@ -255,7 +350,7 @@ func (r *run) scoreRow(w *worker, row int) {
 			rlo, rhi := max(st.lo, n.cut), st.hi
 			lm, rm := st.m && ml, st.m && !ml
 			lz, rz := st.z && zl, st.z && !zl
-			b := w.builders[fj]
+			b := rs.builders[fj]
 			if next == n.left {
 				if rlo < rhi || rm || rz {
 					w.walker.walkNumeric(t, wn, fj, n.right, rlo, rhi, rm, rz, own, b)
@@ -269,24 +364,19 @@ func (r *run) scoreRow(w *worker, row int) {
 			}
 		}
 	}
-	for _, b := range w.builders {
-		if b.used {
-			b.finish()
-		}
-	}
 }
 
 // additiveRow adds one row's metric terms: base, and per feature the exact
 // permutation expectation, the missing-break and the freeze values.
-func (r *run) additiveRow(w *worker, out []float64, wt, y float64) {
+func (r *run) additiveRow(w *worker, rs *rowState, out []float64, wt, y float64) {
 	lay := &r.lay
 	K := r.e.NumClass
 	clear(w.zero)
-	l0 := w.loss.eval(w.margin, w.zero, y)
+	l0 := w.loss.eval(rs.margin, w.zero, y)
 	out[lay.denMetric] += wt
 	out[lay.base] += wt * l0
-	for j := range w.builders {
-		b := w.builders[j]
+	for j := range rs.builders {
+		b := rs.builders[j]
 		d := out[lay.drop+3*j : lay.drop+3*j+3]
 		col := w.col[r.colOff[j]:r.colOff[j+1]]
 		if !b.used {
@@ -299,14 +389,14 @@ func (r *run) additiveRow(w *worker, out []float64, wt, y float64) {
 		vc := &r.vc[j]
 		sf := &b.sf
 		// missing-break and freeze
-		d[1] += wt * w.loss.eval(w.margin, sf.at(vc, vc.missingClass(), K, w.delta), y)
-		d[2] += wt * w.loss.eval(w.margin, sf.at(vc, r.medianC[j], K, w.delta), y)
+		d[1] += wt * w.loss.eval(rs.margin, sf.at(vc, vc.missingClass(), K, w.delta), y)
+		d[2] += wt * w.loss.eval(rs.margin, sf.at(vc, r.medianC[j], K, w.delta), y)
 		// exact permutation expectation: sum over classes of mass x loss
 		exp := 0.0
 		if vc.categorical {
 			for c, p := range r.pClass[j] {
 				if p > 0 {
-					l := w.loss.eval(w.margin, sf.at(vc, c, K, w.delta), y)
+					l := w.loss.eval(rs.margin, sf.at(vc, c, K, w.delta), y)
 					exp += p * l
 					col[c] += wt * l
 				}
@@ -317,7 +407,7 @@ func (r *run) additiveRow(w *worker, out []float64, wt, y float64) {
 			cur := w.zero
 			seg := func(a, b int32, delta []float64) {
 				if m := pre[b] - pre[a]; m > 0 {
-					l := w.loss.eval(w.margin, delta, y)
+					l := w.loss.eval(rs.margin, delta, y)
 					exp += m * l
 					col[a] += wt * l
 					col[b] -= wt * l
@@ -330,13 +420,13 @@ func (r *run) additiveRow(w *worker, out []float64, wt, y float64) {
 			}
 			seg(prev, int32(vc.nb), cur)
 			if p := r.pClass[j][0]; p > 0 {
-				l := w.loss.eval(w.margin, sf.missing, y)
+				l := w.loss.eval(rs.margin, sf.missing, y)
 				exp += p * l
 				col[vc.nb+1] += wt * l
 			}
 			if len(r.pClass[j]) > 1 {
 				if p := r.pClass[j][1]; p > 0 {
-					l := w.loss.eval(w.margin, sf.zero, y)
+					l := w.loss.eval(rs.margin, sf.zero, y)
 					exp += p * l
 					col[vc.nb+2] += wt * l
 				}

@@ -327,6 +327,8 @@ type run struct {
 	vc     []valueClasses
 	splits [][]nodeSplit
 	walk   [][]wnode
+	masks  *maskForest // leaf-mask form of the trees that qualify
+	missC  []int32     // per feature: its missing class
 	init   []pathState // per feature: every class still on the path
 	// class distributions of each feature in the traffic (weighted),
 	// numeric: prefix sums over bins; special classes separately
@@ -366,6 +368,11 @@ func newRun(e *forest.Ensemble, f *frame.Frame, cfg Config, metric Metric, k int
 	r.vc = buildClasses(e, r.cols, medians)
 	r.splits = compileSplits(e, r.vc)
 	r.walk = compileWalk(e, r.splits, r.vc)
+	r.masks = compileMasks(e, r.splits, r.vc)
+	r.missC = make([]int32, nf)
+	for j := range r.vc {
+		r.missC[j] = int32(r.vc[j].missingClass())
+	}
 	r.init = make([]pathState, nf)
 	for j := range r.vc {
 		r.init[j] = pathState{lo: 0, hi: int32(r.vc[j].nb), m: true, z: r.vc[j].zeroMode}

@@ -2,7 +2,6 @@ package importance
 
 import (
 	"math/bits"
-	"slices"
 
 	"splitledger/importance/forest"
 )
@@ -29,6 +28,7 @@ type stepBuilder struct {
 	k    int
 	diff []float64 // numeric: (nb+1)*k difference array
 	mark []uint64  // numeric: bit per bin touched this row (bins come out sorted)
+	sink int32     // numeric: bin nb, past the numeric classes: finish ignores it
 	used bool      // some piece was emitted for the current row
 	sf   stepFunction
 }
@@ -40,6 +40,7 @@ func newStepBuilder(vc *valueClasses, k int) *stepBuilder {
 	} else {
 		b.diff = make([]float64, (vc.nb+1)*k)
 		b.mark = make([]uint64, (vc.nb+1+63)/64)
+		b.sink = int32(vc.nb)
 		b.sf.missing = make([]float64, k)
 		b.sf.zero = make([]float64, k)
 	}
@@ -79,6 +80,13 @@ func (b *stepBuilder) addNumeric(lo, hi int32, m, z bool, cls int, d float64) {
 	}
 }
 
+// addStep adds inc (for output class cls) to every class from bin up: an
+// increment of the step function. It does not mark the builder used.
+func (b *stepBuilder) addStep(bin int32, cls int, inc float64) {
+	b.diff[int(bin)*b.k+cls] += inc
+	b.touch(bin)
+}
+
 // addSet adds d to every class whose bit is set.
 func (b *stepBuilder) addSet(set []uint64, cls int, d float64) {
 	b.used = true
@@ -106,10 +114,13 @@ func (b *stepBuilder) finish() *stepFunction {
 			for word != 0 {
 				bin := int32(wi*64 + bits.TrailingZeros64(word))
 				word &= word - 1
-				c += b.diff[bin]
+				v := b.diff[bin]
 				b.diff[bin] = 0
-				b.sf.starts = append(b.sf.starts, bin)
-				b.sf.deltas = append(b.sf.deltas, c)
+				if v != 0 && bin != b.sink { // a zero sum leaves c as it is
+					c += v
+					b.sf.starts = append(b.sf.starts, bin)
+					b.sf.deltas = append(b.sf.deltas, c)
+				}
 			}
 			b.mark[wi] = 0
 		}
@@ -123,6 +134,9 @@ func (b *stepBuilder) finish() *stepFunction {
 			for c := 0; c < k; c++ {
 				cum[c] += b.diff[int(bin)*k+c]
 				b.diff[int(bin)*k+c] = 0
+			}
+			if bin == b.sink {
+				continue
 			}
 			b.sf.starts = append(b.sf.starts, bin)
 			b.sf.deltas = append(b.sf.deltas, cum...)
@@ -147,16 +161,36 @@ func (s *stepFunction) at(vc *valueClasses, c int, k int, dst []float64) []float
 		return dst
 	}
 	// last segment start <= c
-	i, found := slices.BinarySearch(s.starts, int32(c))
-	if !found {
-		i--
-	}
+	i := lastAtOrBelow(s.starts, int32(c))
 	if i < 0 {
 		clear(dst)
 		return dst
 	}
 	copy(dst, s.deltas[i*k:(i+1)*k])
 	return dst
+}
+
+// lastAtOrBelow returns the index of the last element of the ascending
+// slice s that is at most c, or -1 when there is none (or s is empty). The
+// search halves the range without branching on the comparisons, which are
+// unpredictable here.
+func lastAtOrBelow(s []int32, c int32) int {
+	n := len(s)
+	if n == 0 {
+		return -1
+	}
+	lo := 0
+	for n > 1 {
+		half := n >> 1
+		if s[lo+half] <= c {
+			lo += half
+		}
+		n -= half
+	}
+	if s[lo] > c {
+		return -1
+	}
+	return lo
 }
 
 // at1 is at for single-output models.
@@ -170,10 +204,7 @@ func (s *stepFunction) at1(vc *valueClasses, c int) float64 {
 	case c == vc.nb+1:
 		return s.zero[0]
 	}
-	i, found := slices.BinarySearch(s.starts, int32(c))
-	if !found {
-		i--
-	}
+	i := lastAtOrBelow(s.starts, int32(c))
 	if i < 0 {
 		return 0
 	}

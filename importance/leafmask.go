@@ -1,0 +1,349 @@
+package importance
+
+import (
+	"math/bits"
+	"slices"
+
+	"splitledger/importance/forest"
+)
+
+// Leaf masks: a second way to find a row's step functions, for trees of at
+// most 64 leaves whose splits are plain numeric threshold tests.
+//
+// The leaves of such a tree are numbered left to right, and every internal
+// node carries the word of all leaves except those under its left child. A
+// row's exit leaf is the lowest set bit of the AND of the words of the nodes
+// that do not send the row left (the leftmost leaf none of them rules out).
+//
+// The nodes are grouped by feature. Within a group, the nodes that send a
+// value class right are those whose cut is at or below the class, so the
+// AND of a group's words takes one of a few precomputed values: one per
+// interval between the group's distinct cuts, and one for the missing
+// class. Which one a class picks is read from a per-feature table, so a
+// row's pass over a tree is one load and one AND per group.
+//
+// Changing one feature changes one group's word only. With the other
+// groups' words fixed at the row's values, the leaf reached from interval k
+// is the lowest set bit of others & word[k]. The interval words only lose
+// bits as k grows, so that leaf can only move right, and it moves exactly
+// at the first interval whose word lacks it (the group's kill index for
+// that leaf): the feature's step function in this tree takes one step per
+// distinct leaf reached, whatever the number of cuts.
+//
+// All qualifying trees share flat arrays laid out in tree order, so a pass
+// over the ensemble reads them front to back.
+type maskForest struct {
+	trees  []maskTree // per tree of the ensemble; groups0 < 0 when it walks
+	groups []maskGroup
+	words  []uint64 // per group: ncuts+1 interval words, then the missing word
+	cuts   []int32  // per group: its distinct cuts, ascending
+	kill   []uint8  // per group, per leaf of its tree: first interval lacking it (ncuts+1: none)
+	leaves []maskLeaf
+	paths  []uint16 // per leaf: group<<8 | times the path tests that group
+	// table holds, per feature and value class, the word index of each of
+	// the feature's groups: feature f's block starts at tableOff[f] and has
+	// one row of slots[f] bytes per class 0..nb (nb: missing).
+	table    []uint8
+	tableOff []int
+	slots    []int
+	walked   int // trees that do not qualify (walked instead)
+}
+
+// leafMasks turns the leaf-mask form on; tests turn it off to check it
+// against the walks.
+var leafMasks = true
+
+// maxMaskTable bounds one feature's word-index table (bytes); trees that
+// test a feature whose table would be larger are walked.
+const maxMaskTable = 64 << 20
+
+// maskTree locates one tree's records.
+type maskTree struct {
+	groups0, groups1 int32 // groups[groups0:groups1]
+	leaves0          int32 // its leaves start at leaves[leaves0]
+	class            int32 // output class the tree adds to
+}
+
+// maskGroup is one feature's nodes in one tree.
+type maskGroup struct {
+	feat  int32
+	slot  int32 // column in the feature's table
+	ncuts int32
+	words int32 // first word in maskForest.words
+	cuts  int32 // first cut in maskForest.cuts
+	kill  int32 // first kill index in maskForest.kill
+}
+
+// maskLeaf is one leaf: its value and the groups on its path.
+type maskLeaf struct {
+	value        float64
+	path0, path1 int32 // paths[path0:path1]
+}
+
+// maskable reports whether tree t can take the leaf-mask form: at most 64
+// leaves (so at most 63 groups and path counts below 64, which fit the
+// 8-bit fields of paths and kill) and only plain numeric splits on features
+// without category sets or a zero class.
+func maskable(t *forest.Tree, vc []valueClasses, tooBig []bool) bool {
+	leaves := 0
+	for i := range t.Nodes {
+		n := &t.Nodes[i]
+		if n.IsLeaf() {
+			leaves++
+			continue
+		}
+		c := &vc[n.Feature]
+		if n.Flags&forest.SlowFlags != 0 || c.categorical || c.zeroMode || tooBig[n.Feature] {
+			return false
+		}
+	}
+	return leaves <= 64
+}
+
+// compileMasks builds the mask form of every qualifying tree.
+func compileMasks(e *forest.Ensemble, ns [][]nodeSplit, vc []valueClasses) *maskForest {
+	nf := len(vc)
+	tooBig := make([]bool, nf)
+	ok := make([]bool, len(e.Trees))
+	// groups per feature among the qualifying trees; a feature whose table
+	// would be too large disqualifies its trees (counts only fall, so one
+	// recount settles it)
+	for round := 0; round < 2; round++ {
+		groups := make([]int, nf)
+		for ti := range e.Trees {
+			ok[ti] = leafMasks && maskable(&e.Trees[ti], vc, tooBig)
+			if ok[ti] {
+				seen := map[int32]bool{}
+				for i := range e.Trees[ti].Nodes {
+					n := &e.Trees[ti].Nodes[i]
+					if !n.IsLeaf() && !seen[n.Feature] {
+						seen[n.Feature] = true
+						groups[n.Feature]++
+					}
+				}
+			}
+		}
+		for j := range groups {
+			if (vc[j].nb+1)*groups[j] > maxMaskTable {
+				tooBig[j] = true
+			}
+		}
+	}
+	mf := &maskForest{trees: make([]maskTree, len(e.Trees)), tableOff: make([]int, nf), slots: make([]int, nf)}
+	for ti := range e.Trees {
+		mf.trees[ti] = maskTree{groups0: -1}
+		if ok[ti] {
+			mf.add(ti, &e.Trees[ti], ns[ti], vc)
+		} else {
+			mf.walked++
+		}
+	}
+	size := 0
+	for j := range vc {
+		mf.tableOff[j] = size
+		if mf.slots[j] > 0 {
+			size += (vc[j].nb + 1) * mf.slots[j]
+		}
+	}
+	mf.table = make([]uint8, size)
+	for _, gr := range mf.groups {
+		nb := vc[gr.feat].nb
+		s := mf.slots[gr.feat]
+		col := mf.table[mf.tableOff[gr.feat]+int(gr.slot):]
+		cs := mf.cuts[gr.cuts : gr.cuts+gr.ncuts]
+		k := 0
+		for c := 0; c < nb; c++ {
+			for k < len(cs) && cs[k] <= int32(c) {
+				k++
+			}
+			col[c*s] = uint8(k)
+		}
+		col[nb*s] = uint8(gr.ncuts + 1)
+	}
+	return mf
+}
+
+// add appends qualifying tree ti.
+func (mf *maskForest) add(ti int, t *forest.Tree, ns []nodeSplit, vc []valueClasses) {
+	// leaf numbers, left to right, and the leaves under each node
+	leafOf := make([]int32, len(t.Nodes))
+	under := make([]uint64, len(t.Nodes))
+	var values []float64
+	var number func(i int32)
+	number = func(i int32) {
+		n := &t.Nodes[i]
+		if n.IsLeaf() {
+			leafOf[i] = int32(len(values))
+			under[i] = 1 << uint(len(values))
+			values = append(values, t.Value[i])
+			return
+		}
+		number(n.Left)
+		number(n.Right)
+		under[i] = under[n.Left] | under[n.Right]
+	}
+	number(0)
+	// groups in node order
+	groupOf := map[int32]int32{}
+	var members [][]int32
+	for i := range t.Nodes {
+		n := &t.Nodes[i]
+		if n.IsLeaf() {
+			continue
+		}
+		g, ok := groupOf[n.Feature]
+		if !ok {
+			g = int32(len(members))
+			groupOf[n.Feature] = g
+			members = append(members, nil)
+		}
+		members[g] = append(members[g], int32(i))
+	}
+	hdr := maskTree{groups0: int32(len(mf.groups)), leaves0: int32(len(mf.leaves)), class: int32(t.Class)}
+	for _, nodes := range members {
+		feat := t.Nodes[nodes[0]].Feature
+		var cs []int32
+		for _, i := range nodes {
+			cs = append(cs, ns[i].cut)
+		}
+		slices.Sort(cs)
+		cs = slices.Compact(cs)
+		gr := maskGroup{feat: feat, slot: int32(mf.slots[feat]), ncuts: int32(len(cs)),
+			words: int32(len(mf.words)), cuts: int32(len(mf.cuts)), kill: int32(len(mf.kill))}
+		mf.slots[feat]++ // the running count: the table width once all trees are in
+		mf.cuts = append(mf.cuts, cs...)
+		// interval k holds the classes in [cs[k-1], cs[k]): the nodes with
+		// a cut at or below cs[k-1] send them right
+		first := len(mf.words)
+		for k := 0; k <= len(cs); k++ {
+			w := ^uint64(0)
+			for _, i := range nodes {
+				if k > 0 && ns[i].cut <= cs[k-1] {
+					w &^= under[t.Nodes[i].Left]
+				}
+			}
+			mf.words = append(mf.words, w)
+		}
+		w := ^uint64(0)
+		for _, i := range nodes {
+			if !ns[i].missingLeft {
+				w &^= under[t.Nodes[i].Left]
+			}
+		}
+		mf.words = append(mf.words, w)
+		for l := range values {
+			k := len(cs) + 1
+			for j := 0; j <= len(cs); j++ {
+				if mf.words[first+j]&(1<<uint(l)) == 0 {
+					k = j
+					break
+				}
+			}
+			mf.kill = append(mf.kill, uint8(k))
+		}
+		mf.groups = append(mf.groups, gr)
+	}
+	hdr.groups1 = int32(len(mf.groups))
+	// each leaf's path: the groups it tests, in path order, with counts
+	paths := make([][]uint16, len(values))
+	var path []int32
+	var walk func(i int32)
+	walk = func(i int32) {
+		n := &t.Nodes[i]
+		if n.IsLeaf() {
+			l := leafOf[i]
+		next:
+			for _, g := range path {
+				for k, e := range paths[l] {
+					if int32(e>>8) == g {
+						paths[l][k]++
+						continue next
+					}
+				}
+				paths[l] = append(paths[l], uint16(g)<<8|1)
+			}
+			return
+		}
+		path = append(path, groupOf[n.Feature])
+		walk(n.Left)
+		walk(n.Right)
+		path = path[:len(path)-1]
+	}
+	walk(0)
+	for l, v := range values {
+		p0 := int32(len(mf.paths))
+		mf.paths = append(mf.paths, paths[l]...)
+		mf.leaves = append(mf.leaves, maskLeaf{value: v, path0: p0, path1: int32(len(mf.paths))})
+	}
+	mf.trees[ti] = hdr
+}
+
+// maskScratch is one worker's space for mask evaluation.
+type maskScratch struct {
+	pre, suf [64]uint64
+}
+
+// rowTable points a row at its rows of the word-index tables.
+func (mf *maskForest) rowTable(rs *rowState) {
+	for j, s := range mf.slots {
+		rs.table[j] = mf.tableOff[j] + int(rs.cls[j])*s
+	}
+}
+
+// scoreMaskTree adds one mask tree's part of a row: the margin, path usage
+// and the step-function pieces of every feature on the row's path.
+func (mf *maskForest) scoreMaskTree(sc *maskScratch, rs *rowState, m *maskTree) {
+	groups := mf.groups[m.groups0:m.groups1]
+	ng := len(groups)
+	pre, suf := sc.pre[:ng], sc.suf[:ng]
+	acc := ^uint64(0)
+	for g := range groups {
+		gr := &groups[g]
+		word := mf.words[int(gr.words)+int(mf.table[rs.table[gr.feat]+int(gr.slot)])]
+		pre[g] = acc
+		suf[g] = word // the group's own word until the suffix pass
+		acc &= word
+	}
+	leaves := mf.leaves[m.leaves0:]
+	lf := &leaves[bits.TrailingZeros64(acc)]
+	own := lf.value
+	rs.margin[m.class] += own
+	if lf.path0 == lf.path1 {
+		return
+	}
+	acc = ^uint64(0)
+	for g := ng - 1; g >= 0; g-- {
+		word := suf[g]
+		suf[g] = acc
+		acc &= word
+	}
+	cl := int(m.class)
+	for _, pe := range mf.paths[lf.path0:lf.path1] {
+		g := int(pe >> 8)
+		gr := &groups[g]
+		f := gr.feat
+		rs.tests[f] += float64(pe & 0xff)
+		rs.present[f] = true
+		others := pre[g] & suf[g]
+		b := rs.builders[f]
+		b.used = true
+		words := mf.words[gr.words : gr.words+gr.ncuts+2]
+		cuts := mf.cuts[gr.cuts : gr.cuts+gr.ncuts]
+		kill := mf.kill[gr.kill:]
+		// one step per distinct leaf, left to right
+		leaf := bits.TrailingZeros64(others & words[0])
+		d := leaves[leaf].value - own
+		b.addStep(0, cl, d)
+		for {
+			k := int(kill[leaf])
+			if k > len(cuts) {
+				break
+			}
+			leaf = bits.TrailingZeros64(others & words[k])
+			next := leaves[leaf].value - own
+			b.addStep(cuts[k-1], cl, next-d)
+			d = next
+		}
+		b.sf.missing[cl] += leaves[bits.TrailingZeros64(others&words[len(cuts)+1])].value - own
+	}
+}
