@@ -174,6 +174,26 @@ func TestImportanceJSONKeys(t *testing.T) {
 	}
 }
 
+// Every --metric the model and labels allow runs end to end and names
+// itself in the JSON.
+func TestImportanceEveryMetric(t *testing.T) {
+	pq := filepath.Join(t.TempDir(), "rows.parquet")
+	csvToParquet(t, fixture("binary", "rows.csv"), pq)
+	for metric, want := range map[string]string{"logloss": "logloss", "auc": "auc", "rmse": "rmse", "mean_abs_delta": "mean_abs_delta"} {
+		code, out, errs := run(t, "importance", fixture("binary", "model.json"), "--traffic", pq, "--label", "label",
+			"--metric", metric, "--format", "json", "--replicates", "10", "--head", "300")
+		if code != ExitOK {
+			t.Fatalf("--metric %s: exit %d: %s", metric, code, errs)
+		}
+		var got struct {
+			Metric string `json:"metric"`
+		}
+		if err := json.Unmarshal([]byte(out), &got); err != nil || got.Metric != want {
+			t.Errorf("--metric %s: metric %q (%v)", metric, got.Metric, err)
+		}
+	}
+}
+
 // explain: a score difference between two rows splits exactly into the sum
 // of per-feature SHAP differences (the bias cancels): the local accuracy
 // property of SHAP values (Lundberg, Erion & Lee 2018).
