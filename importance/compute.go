@@ -40,8 +40,10 @@ type worker struct {
 	// layout [row][feature][0:miss 1:freeze 2..: repeats] (K=1 models)
 	chunkScores []float64
 	chunkBase   []float64
-	chunkRows   []int32 // the chunk's rows in unit order
-	chunkUnit   []int32 // the unit of each of them
+	queries     []int32   // shuffled metrics: the classes asked of one step function
+	answers     []float64 // and its values there
+	chunkRows   []int32   // the chunk's rows in unit order
+	chunkUnit   []int32   // the unit of each of them
 	ndcg        metrics.NDCGScratch
 	groupS      []float64
 	groupL      []float64
@@ -58,6 +60,7 @@ func (r *run) newWorker() *worker {
 		pathSeen: make([]int32, nf),
 		state:    make([]pathState, nf),
 		loss:     newRowLoss(r.metric, r.e),
+		answers:  make([]float64, 1+len(r.perms)),
 	}
 	for i := range w.rows {
 		rs := &rowState{
@@ -190,19 +193,31 @@ func (r *run) keepPerturbed(w *worker, rs *rowState, row, local int) {
 		}
 		sf := &b.sf
 		vc := &r.vc[j]
-		m, own := rs.margin[0], int(rs.cls[j])
-		// the row's own class changes nothing, exactly (the step sums may
-		// carry rounding there)
-		at := func(c int) float64 {
-			if c == own {
-				return m
-			}
-			return m + sf.at1(vc, c)
-		}
-		s[0] = at(vc.missingClass())
-		s[1] = at(r.medianC[j])
+		m, own := rs.margin[0], int32(rs.cls[j])
+		// the classes asked for: the median, then each shuffle's
+		qs := w.queries[:0]
+		qs = append(qs, int32(r.medianC[j]))
 		for k := range r.perms {
-			s[2+k] = at(int(r.permClass[k][j][row]))
+			qs = append(qs, r.permClass[k][j][row])
+		}
+		w.queries = qs
+		vals := w.answers[:len(qs)]
+		if vc.categorical {
+			for i, c := range qs {
+				vals[i] = sf.at1(vc, int(c))
+			}
+		} else {
+			b.evalQueries(qs, vals)
+		}
+		s[0] = m + sf.at1(vc, vc.missingClass())
+		for i, c := range qs {
+			// the row's own class changes nothing, exactly (the step
+			// sums may carry rounding there)
+			if c == own {
+				s[1+i] = m
+			} else {
+				s[1+i] = m + vals[i]
+			}
 		}
 	}
 	if r.aucScores != nil {
@@ -250,6 +265,9 @@ func (r *run) scoreBlock(w *worker, block []int32) {
 		for _, rs := range rowsIn {
 			r.walkTrees(w, rs)
 		}
+	}
+	if !r.metric.additive() {
+		return // keepPerturbed asks the builders for the classes it needs
 	}
 	for _, rs := range rowsIn {
 		for _, b := range rs.builders {

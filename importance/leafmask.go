@@ -37,7 +37,7 @@ type maskForest struct {
 	groups []maskGroup
 	words  []uint64 // per group: ncuts+1 interval words, then the missing word
 	cuts   []int32  // per group: its distinct cuts, ascending
-	kill   []uint8  // per group, per leaf of its tree: first interval lacking it (ncuts+1: none)
+	kill   []uint8  // per group, 64 entries (one per leaf bit): first interval lacking the leaf (ncuts+1: none)
 	leaves []maskLeaf
 	paths  []uint16 // per leaf: group<<8 | times the path tests that group
 	// table holds, per feature and value class, the word index of each of
@@ -231,7 +231,7 @@ func (mf *maskForest) add(ti int, t *forest.Tree, ns []nodeSplit, vc []valueClas
 			}
 		}
 		mf.words = append(mf.words, w)
-		for l := range values {
+		for l := range 64 { // 64 entries, so the hot loop indexes without a check
 			k := len(cs) + 1
 			for j := 0; j <= len(cs); j++ {
 				if mf.words[first+j]&(1<<uint(l)) == 0 {
@@ -293,13 +293,16 @@ func (mf *maskForest) rowTable(rs *rowState) {
 // scoreMaskTree adds one mask tree's part of a row: the margin, path usage
 // and the step-function pieces of every feature on the row's path.
 func (mf *maskForest) scoreMaskTree(sc *maskScratch, rs *rowState, m *maskTree) {
+	// the arrays in locals: the stores below could alias them otherwise,
+	// and the compiler would reload every header each iteration
 	groups := mf.groups[m.groups0:m.groups1]
+	allWords, table, rowTable := mf.words, mf.table, rs.table
 	ng := len(groups)
 	pre, suf := sc.pre[:ng], sc.suf[:ng]
 	acc := ^uint64(0)
 	for g := range groups {
 		gr := &groups[g]
-		word := mf.words[int(gr.words)+int(mf.table[rs.table[gr.feat]+int(gr.slot)])]
+		word := allWords[int(gr.words)+int(table[rowTable[gr.feat]+int(gr.slot)])]
 		pre[g] = acc
 		suf[g] = word // the group's own word until the suffix pass
 		acc &= word
@@ -318,24 +321,26 @@ func (mf *maskForest) scoreMaskTree(sc *maskScratch, rs *rowState, m *maskTree) 
 		acc &= word
 	}
 	cl := int(m.class)
+	allCuts, allKill := mf.cuts, mf.kill
+	tests, present, builders := rs.tests, rs.present, rs.builders
 	for _, pe := range mf.paths[lf.path0:lf.path1] {
 		g := int(pe >> 8)
 		gr := &groups[g]
 		f := gr.feat
-		rs.tests[f] += float64(pe & 0xff)
-		rs.present[f] = true
+		tests[f] += float64(pe & 0xff)
+		present[f] = true
 		others := pre[g] & suf[g]
-		b := rs.builders[f]
+		b := builders[f]
 		b.used = true
-		words := mf.words[gr.words : gr.words+gr.ncuts+2]
-		cuts := mf.cuts[gr.cuts : gr.cuts+gr.ncuts]
-		kill := mf.kill[gr.kill:]
+		words := allWords[gr.words : gr.words+gr.ncuts+2]
+		cuts := allCuts[gr.cuts : gr.cuts+gr.ncuts]
+		kill := allKill[gr.kill : gr.kill+64]
 		// one step per distinct leaf, left to right
 		leaf := bits.TrailingZeros64(others & words[0])
 		d := leaves[leaf].value - own
 		b.addStep(0, cl, d)
 		for {
-			k := int(kill[leaf])
+			k := int(kill[leaf&63])
 			if k > len(cuts) {
 				break
 			}

@@ -362,9 +362,9 @@ func newRun(e *forest.Ensemble, f *frame.Frame, cfg Config, metric Metric, k int
 	r.cols, r.absent = columnsFor(e, f)
 	nf := e.NumFeatures()
 	medians := make([]float64, nf)
-	for j := range medians {
+	parallel.Chunks(nf, 1, cfg.Workers, func(_, j, _ int) {
 		medians[j] = medianOf(r.cols[j])
-	}
+	})
 	r.vc = buildClasses(e, r.cols, medians)
 	r.splits = compileSplits(e, r.vc)
 	r.walk = compileWalk(e, r.splits, r.vc)

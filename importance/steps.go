@@ -29,8 +29,11 @@ type stepBuilder struct {
 	diff []float64 // numeric: (nb+1)*k difference array
 	mark []uint64  // numeric: bit per bin touched this row (bins come out sorted)
 	sink int32     // numeric: bin nb, past the numeric classes: finish ignores it
-	used bool      // some piece was emitted for the current row
-	sf   stepFunction
+	// evalQueries: bit per asked bin, and the running sum at each bin
+	qmark []uint64
+	qval  []float64
+	used  bool // some piece was emitted for the current row
+	sf    stepFunction
 }
 
 func newStepBuilder(vc *valueClasses, k int) *stepBuilder {
@@ -144,6 +147,49 @@ func (b *stepBuilder) finish() *stepFunction {
 		b.mark[wi] = 0
 	}
 	return &b.sf
+}
+
+// evalQueries writes into vals the margin change at each class of qs (the
+// values of the step function there) and clears the builder for the next
+// row, instead of finish: a single pass over the touched and asked bins,
+// with no search. Classes at or above nb (missing, zero) read the special
+// values. Numeric mode, one output class.
+func (b *stepBuilder) evalQueries(qs []int32, vals []float64) {
+	nb := int32(b.vc.nb)
+	if b.qval == nil {
+		b.qmark = make([]uint64, len(b.mark))
+		b.qval = make([]float64, nb+1)
+	}
+	for _, q := range qs {
+		if q < nb {
+			b.qmark[q>>6] |= 1 << (q & 63)
+		}
+	}
+	// every bin the diff array holds was touched, and untouched bins hold
+	// zero, so the running sum needs no test; the sink is bin nb, past
+	// every asked class
+	c := 0.0
+	for wi, m := range b.mark {
+		u := m | b.qmark[wi]
+		for u != 0 {
+			bin := wi*64 + bits.TrailingZeros64(u)
+			u &= u - 1
+			c += b.diff[bin]
+			b.diff[bin] = 0
+			b.qval[bin] = c
+		}
+		b.mark[wi], b.qmark[wi] = 0, 0
+	}
+	for i, q := range qs {
+		switch {
+		case q < nb:
+			vals[i] = b.qval[q]
+		case q == nb:
+			vals[i] = b.sf.missing[0]
+		default:
+			vals[i] = b.sf.zero[0]
+		}
+	}
 }
 
 // at writes the margin change for class c into dst (len k) and returns it.

@@ -91,6 +91,7 @@ func CheckRelevance(labels []float64) error {
 type NDCGScratch struct {
 	items []rankedGain
 	gains []float64
+	top   []float64
 }
 
 // rankedGain is one item of a query group: its score (NaN replaced by
@@ -196,14 +197,43 @@ func DCGGains(scores, gains []float64, k int, scratch *NDCGScratch) float64 {
 	if scratch == nil {
 		scratch = new(NDCGScratch)
 	}
-	items := slices.Grow(scratch.items[:0], n)[:n]
-	scratch.items = items
+	// Only the items scoring at or above the k-th largest score can reach
+	// the first k positions (with every item tied at that score, whose
+	// gains are averaged): find that score, keep those items, sort them.
+	cut := math.Inf(-1)
+	if k < n {
+		top := slices.Grow(scratch.top[:0], k)[:0]
+		for _, s := range scores {
+			if s != s {
+				s = math.Inf(-1)
+			}
+			if len(top) == k {
+				if !(s > top[k-1]) {
+					continue
+				}
+				top = top[:k-1]
+			}
+			i := len(top)
+			top = append(top, s)
+			for ; i > 0 && top[i-1] < s; i-- {
+				top[i] = top[i-1]
+			}
+			top[i] = s
+		}
+		scratch.top = top
+		cut = top[k-1]
+	}
+	items := slices.Grow(scratch.items[:0], n)[:0]
 	for i, s := range scores {
 		if s != s {
 			s = math.Inf(-1)
 		}
-		items[i] = rankedGain{score: s, gain: gains[i]}
+		if s >= cut {
+			items = append(items, rankedGain{score: s, gain: gains[i]})
+		}
 	}
+	scratch.items = items
+	n = len(items)
 	sortDescending(items)
 	var dcg float64
 	for pos := 0; pos < k; {
