@@ -16,6 +16,7 @@ type rowState struct {
 	x        []float64 // the row, by feature
 	cls      []int32   // the row's value class per feature
 	table    []int     // per feature: the row's row of the leaf-mask word-index table
+	touched  uint8     // keeps the table reads of rowTable from being dropped
 	margin   []float64 // per output class
 	tests    []float64 // per feature: tests on the row's paths
 	present  []bool    // per feature: some path tests it

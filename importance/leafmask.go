@@ -285,9 +285,17 @@ type maskScratch struct {
 
 // rowTable points a row at its rows of the word-index tables.
 func (mf *maskForest) rowTable(rs *rowState) {
+	touched := uint8(0)
 	for j, s := range mf.slots {
-		rs.table[j] = mf.tableOff[j] + int(rs.cls[j])*s
+		off := mf.tableOff[j] + int(rs.cls[j])*s
+		rs.table[j] = off
+		// read the row's table lines now, all at once, rather than one at
+		// a time inside the dependent loads of the tree pass
+		for i := 0; i < s; i += 64 {
+			touched |= mf.table[off+i]
+		}
 	}
+	rs.touched = touched
 }
 
 // scoreMaskTree adds one mask tree's part of a row: the margin, path usage
@@ -335,10 +343,13 @@ func (mf *maskForest) scoreMaskTree(sc *maskScratch, rs *rowState, m *maskTree) 
 		words := allWords[gr.words : gr.words+gr.ncuts+2]
 		cuts := allCuts[gr.cuts : gr.cuts+gr.ncuts]
 		kill := allKill[gr.kill : gr.kill+64]
-		// one step per distinct leaf, left to right
+		// one step per distinct leaf, left to right: each adds the change
+		// from the leaf before to every class from its interval's start
+		diff, mark, stride := b.diff, b.mark, b.k
 		leaf := bits.TrailingZeros64(others & words[0])
 		d := leaves[leaf].value - own
-		b.addStep(0, cl, d)
+		diff[cl] += d
+		mark[0] |= 1
 		for {
 			k := int(kill[leaf&63])
 			if k > len(cuts) {
@@ -346,7 +357,9 @@ func (mf *maskForest) scoreMaskTree(sc *maskScratch, rs *rowState, m *maskTree) 
 			}
 			leaf = bits.TrailingZeros64(others & words[k])
 			next := leaves[leaf].value - own
-			b.addStep(cuts[k-1], cl, next-d)
+			bin := cuts[k-1]
+			diff[int(bin)*stride+cl] += next - d
+			mark[bin>>6] |= 1 << (bin & 63)
 			d = next
 		}
 		b.sf.missing[cl] += leaves[bits.TrailingZeros64(others&words[len(cuts)+1])].value - own

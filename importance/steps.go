@@ -83,13 +83,6 @@ func (b *stepBuilder) addNumeric(lo, hi int32, m, z bool, cls int, d float64) {
 	}
 }
 
-// addStep adds inc (for output class cls) to every class from bin up: an
-// increment of the step function. It does not mark the builder used.
-func (b *stepBuilder) addStep(bin int32, cls int, inc float64) {
-	b.diff[int(bin)*b.k+cls] += inc
-	b.touch(bin)
-}
-
 // addSet adds d to every class whose bit is set.
 func (b *stepBuilder) addSet(set []uint64, cls int, d float64) {
 	b.used = true
