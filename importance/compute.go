@@ -127,6 +127,9 @@ func (r *run) chunk(w *worker, u0, u1 int) {
 		w.chunkScores = w.chunkScores[:rows*nf*np]
 		w.chunkBase = w.chunkBase[:rows]
 	}
+	// NDCG: a unit's terms as soon as its last row is in, while its
+	// perturbed margins are still in cache
+	nextUnit, unitFirst := u0, 0
 	for b0 := 0; b0 < rows; b0 += blockRows {
 		block := w.chunkRows[b0:min(b0+blockRows, rows)]
 		r.scoreBlock(w, block)
@@ -166,12 +169,14 @@ func (r *run) chunk(w *worker, u0, u1 int) {
 			}
 			r.keepPerturbed(w, rs, int(row), local)
 		}
-	}
-	if shuffled && r.metric == MetricNDCG {
-		first := 0
-		for u := u0; u < u1; u++ {
-			r.ndcgUnit(w, u, r.sums[u*lay.cols:(u+1)*lay.cols], first)
-			first += len(r.units[u])
+		if r.metric != MetricNDCG {
+			continue
+		}
+		done := min(b0+blockRows, rows)
+		for nextUnit < u1 && unitFirst+len(r.units[nextUnit]) <= done {
+			r.ndcgUnit(w, nextUnit, r.sums[nextUnit*lay.cols:(nextUnit+1)*lay.cols], unitFirst)
+			unitFirst += len(r.units[nextUnit])
+			nextUnit++
 		}
 	}
 }

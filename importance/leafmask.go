@@ -35,9 +35,9 @@ import (
 type maskForest struct {
 	trees  []maskTree // per tree of the ensemble; groups0 < 0 when it walks
 	groups []maskGroup
-	words  []uint64 // per group: ncuts+1 interval words, then the missing word
-	cuts   []int32  // per group: its distinct cuts, ascending
-	kill   []uint8  // per group, 64 entries (one per leaf bit): first interval lacking the leaf (ncuts+1: none)
+	steps  []maskStep // per group: ncuts+1 intervals, then the missing class
+	cuts   []int32    // per group: its distinct cuts, ascending
+	kill   []uint8    // per group, 64 entries (one per leaf bit): first interval lacking the leaf (ncuts+1: none)
 	leaves []maskLeaf
 	paths  []uint16 // per leaf: group<<8 | times the path tests that group
 	// table holds, per feature and value class, the word index of each of
@@ -69,9 +69,16 @@ type maskGroup struct {
 	feat  int32
 	slot  int32 // column in the feature's table
 	ncuts int32
-	words int32 // first word in maskForest.words
+	words int32 // first interval in maskForest.steps
 	cuts  int32 // first cut in maskForest.cuts
 	kill  int32 // first kill index in maskForest.kill
+}
+
+// maskStep is one interval of a group's classes: the AND of the group's
+// node words for it, and its first class (the missing entry holds nb).
+type maskStep struct {
+	word  uint64
+	start int32
 }
 
 // maskLeaf is one leaf: its value and the groups on its path.
@@ -209,20 +216,23 @@ func (mf *maskForest) add(ti int, t *forest.Tree, ns []nodeSplit, vc []valueClas
 		slices.Sort(cs)
 		cs = slices.Compact(cs)
 		gr := maskGroup{feat: feat, slot: int32(mf.slots[feat]), ncuts: int32(len(cs)),
-			words: int32(len(mf.words)), cuts: int32(len(mf.cuts)), kill: int32(len(mf.kill))}
+			words: int32(len(mf.steps)), cuts: int32(len(mf.cuts)), kill: int32(len(mf.kill))}
 		mf.slots[feat]++ // the running count: the table width once all trees are in
 		mf.cuts = append(mf.cuts, cs...)
 		// interval k holds the classes in [cs[k-1], cs[k]): the nodes with
 		// a cut at or below cs[k-1] send them right
-		first := len(mf.words)
+		first := len(mf.steps)
 		for k := 0; k <= len(cs); k++ {
-			w := ^uint64(0)
+			w, start := ^uint64(0), int32(0)
+			if k > 0 {
+				start = cs[k-1]
+			}
 			for _, i := range nodes {
 				if k > 0 && ns[i].cut <= cs[k-1] {
 					w &^= under[t.Nodes[i].Left]
 				}
 			}
-			mf.words = append(mf.words, w)
+			mf.steps = append(mf.steps, maskStep{word: w, start: start})
 		}
 		w := ^uint64(0)
 		for _, i := range nodes {
@@ -230,11 +240,11 @@ func (mf *maskForest) add(ti int, t *forest.Tree, ns []nodeSplit, vc []valueClas
 				w &^= under[t.Nodes[i].Left]
 			}
 		}
-		mf.words = append(mf.words, w)
+		mf.steps = append(mf.steps, maskStep{word: w, start: int32(vc[feat].nb)})
 		for l := range 64 { // 64 entries, so the hot loop indexes without a check
 			k := len(cs) + 1
 			for j := 0; j <= len(cs); j++ {
-				if mf.words[first+j]&(1<<uint(l)) == 0 {
+				if mf.steps[first+j].word&(1<<uint(l)) == 0 {
 					k = j
 					break
 				}
@@ -304,13 +314,13 @@ func (mf *maskForest) scoreMaskTree(sc *maskScratch, rs *rowState, m *maskTree) 
 	// the arrays in locals: the stores below could alias them otherwise,
 	// and the compiler would reload every header each iteration
 	groups := mf.groups[m.groups0:m.groups1]
-	allWords, table, rowTable := mf.words, mf.table, rs.table
+	allSteps, table, rowTable := mf.steps, mf.table, rs.table
 	ng := len(groups)
 	pre, suf := sc.pre[:ng], sc.suf[:ng]
 	acc := ^uint64(0)
 	for g := range groups {
 		gr := &groups[g]
-		word := allWords[int(gr.words)+int(table[rowTable[gr.feat]+int(gr.slot)])]
+		word := allSteps[int(gr.words)+int(table[rowTable[gr.feat]+int(gr.slot)])].word
 		pre[g] = acc
 		suf[g] = word // the group's own word until the suffix pass
 		acc &= word
@@ -329,7 +339,7 @@ func (mf *maskForest) scoreMaskTree(sc *maskScratch, rs *rowState, m *maskTree) 
 		acc &= word
 	}
 	cl := int(m.class)
-	allCuts, allKill := mf.cuts, mf.kill
+	allKill := mf.kill
 	tests, present, builders := rs.tests, rs.present, rs.builders
 	for _, pe := range mf.paths[lf.path0:lf.path1] {
 		g := int(pe >> 8)
@@ -340,28 +350,29 @@ func (mf *maskForest) scoreMaskTree(sc *maskScratch, rs *rowState, m *maskTree) 
 		others := pre[g] & suf[g]
 		b := builders[f]
 		b.used = true
-		words := allWords[gr.words : gr.words+gr.ncuts+2]
-		cuts := allCuts[gr.cuts : gr.cuts+gr.ncuts]
+		n := int(gr.ncuts)
+		steps := allSteps[gr.words : int(gr.words)+n+2]
 		kill := allKill[gr.kill : gr.kill+64]
 		// one step per distinct leaf, left to right: each adds the change
 		// from the leaf before to every class from its interval's start
 		diff, mark, stride := b.diff, b.mark, b.k
-		leaf := bits.TrailingZeros64(others & words[0])
+		leaf := bits.TrailingZeros64(others & steps[0].word)
 		d := leaves[leaf].value - own
 		diff[cl] += d
 		mark[0] |= 1
 		for {
 			k := int(kill[leaf&63])
-			if k > len(cuts) {
+			if k > n {
 				break
 			}
-			leaf = bits.TrailingZeros64(others & words[k])
+			st := &steps[k]
+			leaf = bits.TrailingZeros64(others & st.word)
 			next := leaves[leaf].value - own
-			bin := cuts[k-1]
+			bin := st.start
 			diff[int(bin)*stride+cl] += next - d
 			mark[bin>>6] |= 1 << (bin & 63)
 			d = next
 		}
-		b.sf.missing[cl] += leaves[bits.TrailingZeros64(others&words[len(cuts)+1])].value - own
+		b.sf.missing[cl] += leaves[bits.TrailingZeros64(others&steps[n+1].word)].value - own
 	}
 }
