@@ -6,11 +6,6 @@ import (
 	"splitledger/importance/parallel"
 )
 
-// blockRows is how many rows go through the ensemble together: each leaf-
-// mask tree is read once per block instead of once per row, so its records
-// stay in the nearest cache while the block's rows use them.
-const blockRows = 1
-
 // rowState is one row's results from its pass over the ensemble.
 type rowState struct {
 	x        []float64 // the row, by feature
@@ -25,7 +20,7 @@ type rowState struct {
 
 // worker holds one goroutine's scratch space.
 type worker struct {
-	rows     [blockRows]*rowState
+	row      *rowState
 	zero     []float64
 	delta    []float64
 	pert     []float64
@@ -43,8 +38,6 @@ type worker struct {
 	chunkBase   []float64
 	queries     []int32   // shuffled metrics: the classes asked of one step function
 	answers     []float64 // and its values there
-	chunkRows   []int32   // the chunk's rows in unit order
-	chunkUnit   []int32   // the unit of each of them
 	ndcg        metrics.NDCGScratch
 	groupS      []float64
 	groupL      []float64
@@ -63,7 +56,7 @@ func (r *run) newWorker() *worker {
 		loss:     newRowLoss(r.metric, r.e),
 		answers:  make([]float64, 1+len(r.perms)),
 	}
-	for i := range w.rows {
+	{
 		rs := &rowState{
 			x:        make([]float64, nf),
 			cls:      make([]int32, nf),
@@ -76,7 +69,7 @@ func (r *run) newWorker() *worker {
 		for j := range rs.builders {
 			rs.builders[j] = newStepBuilder(&r.vc[j], k)
 		}
-		w.rows[i] = rs
+		w.row = rs
 	}
 	w.walker = freeWalker{e: r.e, xgb: r.e.Rule == forest.LessThanFloat32}
 	return w
@@ -104,21 +97,17 @@ func (r *run) compute() {
 // perturbations per feature for shuffled metrics: missing, freeze, repeats
 func (r *run) nPert() int { return 2 + len(r.perms) }
 
-// chunk processes units [u0, u1): the rows in blocks of blockRows, then,
-// for shuffled metrics, the units' metric terms.
+// chunk processes units [u0, u1) row by row; for NDCG each unit's terms
+// follow its last row, while its perturbed margins are still in cache.
 func (r *run) chunk(w *worker, u0, u1 int) {
 	f, lay := r.f, &r.lay
 	nf := r.e.NumFeatures()
 	shuffled := !r.metric.additive()
 	np := r.nPert()
-	w.chunkRows, w.chunkUnit = w.chunkRows[:0], w.chunkUnit[:0]
+	rows := 0
 	for u := u0; u < u1; u++ {
-		for _, row := range r.units[u] {
-			w.chunkRows = append(w.chunkRows, row)
-			w.chunkUnit = append(w.chunkUnit, int32(u))
-		}
+		rows += len(r.units[u])
 	}
-	rows := len(w.chunkRows)
 	if shuffled {
 		if cap(w.chunkScores) < rows*nf*np {
 			w.chunkScores = make([]float64, rows*nf*np)
@@ -127,17 +116,13 @@ func (r *run) chunk(w *worker, u0, u1 int) {
 		w.chunkScores = w.chunkScores[:rows*nf*np]
 		w.chunkBase = w.chunkBase[:rows]
 	}
-	// NDCG: a unit's terms as soon as its last row is in, while its
-	// perturbed margins are still in cache
-	nextUnit, unitFirst := u0, 0
-	for b0 := 0; b0 < rows; b0 += blockRows {
-		block := w.chunkRows[b0:min(b0+blockRows, rows)]
-		r.scoreBlock(w, block)
-		for i, row := range block {
-			rs := w.rows[i]
-			local := b0 + i
-			u := int(w.chunkUnit[local])
-			out := r.sums[u*lay.cols : (u+1)*lay.cols]
+	rs := w.row
+	local := 0 // the row's index in the chunk
+	for u := u0; u < u1; u++ {
+		out := r.sums[u*lay.cols : (u+1)*lay.cols]
+		first := local
+		for _, row := range r.units[u] {
+			r.scoreRow(w, rs, int(row))
 			wt := 1.0
 			if f.Weight != nil {
 				wt = f.Weight[row]
@@ -168,15 +153,10 @@ func (r *run) chunk(w *worker, u0, u1 int) {
 				out[lay.denMetric] += wt
 			}
 			r.keepPerturbed(w, rs, int(row), local)
+			local++
 		}
-		if r.metric != MetricNDCG {
-			continue
-		}
-		done := min(b0+blockRows, rows)
-		for nextUnit < u1 && unitFirst+len(r.units[nextUnit]) <= done {
-			r.ndcgUnit(w, nextUnit, r.sums[nextUnit*lay.cols:(nextUnit+1)*lay.cols], unitFirst)
-			unitFirst += len(r.units[nextUnit])
-			nextUnit++
+		if r.metric == MetricNDCG {
+			r.ndcgUnit(w, u, out, first)
 		}
 	}
 }
@@ -237,49 +217,38 @@ func (r *run) keepPerturbed(w *worker, rs *rowState, row, local int) {
 	}
 }
 
-// scoreBlock runs a block of rows through every tree: each row's margin,
-// path usage and every feature's step function (only features met on the
-// row's own paths can move its leaves). Leaf-mask trees go tree by tree
-// over the block; the other trees are walked row by row.
-func (r *run) scoreBlock(w *worker, block []int32) {
+// scoreRow runs one row through every tree: its margin, path usage and
+// every feature's step function (only features met on the row's own paths
+// can move its leaves). Leaf-mask trees go first, then the walked ones.
+func (r *run) scoreRow(w *worker, rs *rowState, row int) {
 	e := r.e
-	for i, row := range block {
-		rs := w.rows[i]
-		for j := range rs.x {
-			rs.x[j] = r.cols[j][row]
-			rs.present[j] = false
-			rs.tests[j] = 0
-			rs.builders[j].start()
-			if r.classOf != nil {
-				rs.cls[j] = r.classOf[j][row]
-			} else {
-				rs.cls[j] = int32(r.vc[j].classOf(rs.x[j]))
-			}
+	for j := range rs.x {
+		rs.x[j] = r.cols[j][row]
+		rs.present[j] = false
+		rs.tests[j] = 0
+		rs.builders[j].start()
+		if r.classOf != nil {
+			rs.cls[j] = r.classOf[j][row]
+		} else {
+			rs.cls[j] = int32(r.vc[j].classOf(rs.x[j]))
 		}
-		copy(rs.margin, e.BaseMargin)
-		r.masks.rowTable(rs)
 	}
-	rowsIn := w.rows[:len(block)]
+	copy(rs.margin, e.BaseMargin)
+	r.masks.rowTable(rs)
 	for ti := range r.masks.trees {
 		if m := &r.masks.trees[ti]; m.groups0 >= 0 {
-			for _, rs := range rowsIn {
-				r.masks.scoreMaskTree(&w.masks, rs, m)
-			}
+			r.masks.scoreMaskTree(&w.masks, rs, m)
 		}
 	}
 	if r.masks.walked > 0 {
-		for _, rs := range rowsIn {
-			r.walkTrees(w, rs)
-		}
+		r.walkTrees(w, rs)
 	}
 	if !r.metric.additive() {
 		return // keepPerturbed asks the builders for the classes it needs
 	}
-	for _, rs := range rowsIn {
-		for _, b := range rs.builders {
-			if b.used {
-				b.finish()
-			}
+	for _, b := range rs.builders {
+		if b.used {
+			b.finish()
 		}
 	}
 }
