@@ -14,7 +14,6 @@ type rowState struct {
 	touched  uint8     // keeps the table reads of rowTable from being dropped
 	margin   []float64 // per output class
 	tests    []float64 // per feature: tests on the row's paths
-	present  []bool    // per feature: some path tests it
 	builders []*stepBuilder
 }
 
@@ -63,7 +62,6 @@ func (r *run) newWorker() *worker {
 			table:    make([]int, nf),
 			margin:   make([]float64, k),
 			tests:    make([]float64, nf),
-			present:  make([]bool, nf),
 			builders: make([]*stepBuilder, nf),
 		}
 		for j := range rs.builders {
@@ -133,7 +131,7 @@ func (r *run) chunk(w *worker, u0, u1 int) {
 			}
 			out[lay.denRows] += wt
 			for j := 0; j < nf; j++ {
-				if rs.present[j] {
+				if rs.tests[j] > 0 { // some path tests it
 					out[lay.path+j] += wt
 				}
 				out[lay.tests+j] += wt * rs.tests[j]
@@ -224,7 +222,6 @@ func (r *run) scoreRow(w *worker, rs *rowState, row int) {
 	e := r.e
 	for j := range rs.x {
 		rs.x[j] = r.cols[j][row]
-		rs.present[j] = false
 		rs.tests[j] = 0
 		rs.builders[j].start()
 		if r.classOf != nil {
@@ -242,6 +239,10 @@ func (r *run) scoreRow(w *worker, rs *rowState, row int) {
 	}
 	if r.masks.walked > 0 {
 		r.walkTrees(w, rs)
+	}
+	for j, b := range rs.builders {
+		// a feature on a mask tree's path wrote steps (maybe all zero)
+		b.used = b.used || rs.tests[j] > 0
 	}
 	if !r.metric.additive() {
 		return // keepPerturbed asks the builders for the classes it needs
@@ -286,7 +287,6 @@ func (r *run) walkTrees(w *worker, rs *rowState) {
 			rs.tests[fj]++
 			if w.pathSeen[fj] != stamp {
 				w.pathSeen[fj] = stamp
-				rs.present[fj] = true
 				w.onPath = append(w.onPath, i)
 			}
 			x := rs.x[fj]

@@ -13,7 +13,8 @@ import (
 // The leaves of such a tree are numbered left to right, and every internal
 // node carries the word of all leaves except those under its left child. A
 // row's exit leaf is the lowest set bit of the AND of the words of the nodes
-// that do not send the row left (the leftmost leaf none of them rules out).
+// that do not send the row left (the leftmost leaf none of them rules out;
+// the exit-leaf rule of Lucchese et al., "QuickScorer", SIGIR 2015).
 //
 // The nodes are grouped by feature. Within a group, the nodes that send a
 // value class right are those whose cut is at or below the class, so the
@@ -35,11 +36,18 @@ import (
 type maskForest struct {
 	trees  []maskTree // per tree of the ensemble; groups0 < 0 when it walks
 	groups []maskGroup
-	steps  []maskStep // per group: ncuts+1 intervals, then the missing class
-	cuts   []int32    // per group: its distinct cuts, ascending
-	kill   []uint8    // per group, 64 entries (one per leaf bit): first interval lacking the leaf (ncuts+1: none)
-	leaves []maskLeaf
-	paths  []uint16 // per leaf: group<<8 | times the path tests that group
+	// per group, ncuts+1 intervals then the missing class: the AND of the
+	// group's node words for each, and its first class (missing: nb)
+	words  []uint64
+	starts []int32
+	cuts   []int32 // per group: its distinct cuts, ascending
+	kill   []uint8 // per group, 64 entries (one per leaf bit): first interval lacking the leaf (ncuts+1: none)
+	// per leaf, in tree order: its value, and where its path's groups start
+	// in paths (leaf i's are paths[leafPath[i]:leafPath[i+1]]; one more
+	// entry closes the last leaf)
+	leafValue []float64
+	leafPath  []int32
+	paths     []uint16 // group<<8 | times the path tests that group
 	// table holds, per feature and value class, the word index of each of
 	// the feature's groups: feature f's block starts at tableOff[f] and has
 	// one row of slots[f] bytes per class 0..nb (nb: missing).
@@ -60,7 +68,7 @@ const maxMaskTable = 64 << 20
 // maskTree locates one tree's records.
 type maskTree struct {
 	groups0, groups1 int32 // groups[groups0:groups1]
-	leaves0          int32 // its leaves start at leaves[leaves0]
+	leaves0          int32 // its leaves start at leafValue[leaves0]
 	class            int32 // output class the tree adds to
 }
 
@@ -72,19 +80,6 @@ type maskGroup struct {
 	words int32 // first interval in maskForest.steps
 	cuts  int32 // first cut in maskForest.cuts
 	kill  int32 // first kill index in maskForest.kill
-}
-
-// maskStep is one interval of a group's classes: the AND of the group's
-// node words for it, and its first class (the missing entry holds nb).
-type maskStep struct {
-	word  uint64
-	start int32
-}
-
-// maskLeaf is one leaf: its value and the groups on its path.
-type maskLeaf struct {
-	value        float64
-	path0, path1 int32 // paths[path0:path1]
 }
 
 // maskable reports whether tree t can take the leaf-mask form: at most 64
@@ -206,7 +201,7 @@ func (mf *maskForest) add(ti int, t *forest.Tree, ns []nodeSplit, vc []valueClas
 		}
 		members[g] = append(members[g], int32(i))
 	}
-	hdr := maskTree{groups0: int32(len(mf.groups)), leaves0: int32(len(mf.leaves)), class: int32(t.Class)}
+	hdr := maskTree{groups0: int32(len(mf.groups)), leaves0: int32(len(mf.leafValue)), class: int32(t.Class)}
 	for _, nodes := range members {
 		feat := t.Nodes[nodes[0]].Feature
 		var cs []int32
@@ -216,12 +211,11 @@ func (mf *maskForest) add(ti int, t *forest.Tree, ns []nodeSplit, vc []valueClas
 		slices.Sort(cs)
 		cs = slices.Compact(cs)
 		gr := maskGroup{feat: feat, slot: int32(mf.slots[feat]), ncuts: int32(len(cs)),
-			words: int32(len(mf.steps)), cuts: int32(len(mf.cuts)), kill: int32(len(mf.kill))}
+			words: int32(len(mf.words)), cuts: int32(len(mf.cuts)), kill: int32(len(mf.kill))}
 		mf.slots[feat]++ // the running count: the table width once all trees are in
 		mf.cuts = append(mf.cuts, cs...)
 		// interval k holds the classes in [cs[k-1], cs[k]): the nodes with
 		// a cut at or below cs[k-1] send them right
-		first := len(mf.steps)
 		for k := 0; k <= len(cs); k++ {
 			w, start := ^uint64(0), int32(0)
 			if k > 0 {
@@ -232,7 +226,8 @@ func (mf *maskForest) add(ti int, t *forest.Tree, ns []nodeSplit, vc []valueClas
 					w &^= under[t.Nodes[i].Left]
 				}
 			}
-			mf.steps = append(mf.steps, maskStep{word: w, start: start})
+			mf.words = append(mf.words, w)
+			mf.starts = append(mf.starts, start)
 		}
 		w := ^uint64(0)
 		for _, i := range nodes {
@@ -240,11 +235,12 @@ func (mf *maskForest) add(ti int, t *forest.Tree, ns []nodeSplit, vc []valueClas
 				w &^= under[t.Nodes[i].Left]
 			}
 		}
-		mf.steps = append(mf.steps, maskStep{word: w, start: int32(vc[feat].nb)})
+		mf.words = append(mf.words, w)
+		mf.starts = append(mf.starts, int32(vc[feat].nb))
 		for l := range 64 { // 64 entries, so the hot loop indexes without a check
 			k := len(cs) + 1
 			for j := 0; j <= len(cs); j++ {
-				if mf.steps[first+j].word&(1<<uint(l)) == 0 {
+				if mf.words[int(gr.words)+j]&(1<<uint(l)) == 0 {
 					k = j
 					break
 				}
@@ -280,11 +276,15 @@ func (mf *maskForest) add(ti int, t *forest.Tree, ns []nodeSplit, vc []valueClas
 		path = path[:len(path)-1]
 	}
 	walk(0)
-	for l, v := range values {
-		p0 := int32(len(mf.paths))
-		mf.paths = append(mf.paths, paths[l]...)
-		mf.leaves = append(mf.leaves, maskLeaf{value: v, path0: p0, path1: int32(len(mf.paths))})
+	if len(mf.leafPath) > 0 {
+		mf.leafPath = mf.leafPath[:len(mf.leafPath)-1] // reopen: this tree's first leaf closes the last
 	}
+	for l, v := range values {
+		mf.leafValue = append(mf.leafValue, v)
+		mf.leafPath = append(mf.leafPath, int32(len(mf.paths)))
+		mf.paths = append(mf.paths, paths[l]...)
+	}
+	mf.leafPath = append(mf.leafPath, int32(len(mf.paths)))
 	mf.trees[ti] = hdr
 }
 
@@ -314,22 +314,23 @@ func (mf *maskForest) scoreMaskTree(sc *maskScratch, rs *rowState, m *maskTree) 
 	// the arrays in locals: the stores below could alias them otherwise,
 	// and the compiler would reload every header each iteration
 	groups := mf.groups[m.groups0:m.groups1]
-	allSteps, table, rowTable := mf.steps, mf.table, rs.table
+	allWords, table, rowTable := mf.words, mf.table, rs.table
 	ng := len(groups)
 	pre, suf := sc.pre[:ng], sc.suf[:ng]
 	acc := ^uint64(0)
 	for g := range groups {
 		gr := &groups[g]
-		word := allSteps[int(gr.words)+int(table[rowTable[gr.feat]+int(gr.slot)])].word
+		word := allWords[int(gr.words)+int(table[rowTable[gr.feat]+int(gr.slot)])]
 		pre[g] = acc
 		suf[g] = word // the group's own word until the suffix pass
 		acc &= word
 	}
-	leaves := mf.leaves[m.leaves0:]
-	lf := &leaves[bits.TrailingZeros64(acc)]
-	own := lf.value
+	values := mf.leafValue[m.leaves0:]
+	ownLeaf := int(m.leaves0) + bits.TrailingZeros64(acc)
+	own := mf.leafValue[ownLeaf]
 	rs.margin[m.class] += own
-	if lf.path0 == lf.path1 {
+	p0, p1 := mf.leafPath[ownLeaf], mf.leafPath[ownLeaf+1]
+	if p0 == p1 {
 		return
 	}
 	acc = ^uint64(0)
@@ -339,40 +340,40 @@ func (mf *maskForest) scoreMaskTree(sc *maskScratch, rs *rowState, m *maskTree) 
 		acc &= word
 	}
 	cl := int(m.class)
-	allKill := mf.kill
-	tests, present, builders := rs.tests, rs.present, rs.builders
-	for _, pe := range mf.paths[lf.path0:lf.path1] {
+	allStarts := mf.starts
+	tests, builders := rs.tests, rs.builders
+	for _, pe := range mf.paths[p0:p1] {
 		g := int(pe >> 8)
 		gr := &groups[g]
 		f := gr.feat
 		tests[f] += float64(pe & 0xff)
-		present[f] = true
 		others := pre[g] & suf[g]
-		b := builders[f]
-		b.used = true
+		b := builders[f] // scoreRow marks it used (tests > 0)
 		n := int(gr.ncuts)
-		steps := allSteps[gr.words : int(gr.words)+n+2]
-		kill := allKill[gr.kill : gr.kill+64]
+		words := allWords[gr.words : int(gr.words)+n+2]
+		starts := allStarts[gr.words : int(gr.words)+n+1]
 		// one step per distinct leaf, left to right: each adds the change
-		// from the leaf before to every class from its interval's start
+		// from the leaf before to every class from its interval's start.
+		// The interval words only lose bits, so the leaf holds until the
+		// first later word without it.
 		diff, mark, stride := b.diff, b.mark, b.k
-		leaf := bits.TrailingZeros64(others & steps[0].word)
-		d := leaves[leaf].value - own
+		leaf := bits.TrailingZeros64(others & words[0])
+		d := values[leaf] - own
 		diff[cl] += d
 		mark[0] |= 1
+		kill := mf.kill[gr.kill : gr.kill+64]
 		for {
 			k := int(kill[leaf&63])
 			if k > n {
 				break
 			}
-			st := &steps[k]
-			leaf = bits.TrailingZeros64(others & st.word)
-			next := leaves[leaf].value - own
-			bin := st.start
+			leaf = bits.TrailingZeros64(others & words[k])
+			next := values[leaf] - own
+			bin := starts[k]
 			diff[int(bin)*stride+cl] += next - d
 			mark[bin>>6] |= 1 << (bin & 63)
 			d = next
 		}
-		b.sf.missing[cl] += leaves[bits.TrailingZeros64(others&steps[n+1].word)].value - own
+		b.sf.missing[cl] += values[bits.TrailingZeros64(others&words[n+1])] - own
 	}
 }
