@@ -15,6 +15,12 @@ type rowState struct {
 	margin   []float64 // per output class
 	tests    []float64 // per feature: tests on the row's paths
 	builders []*stepBuilder
+	// numeric features' difference arrays, touched-bin bits and missing
+	// values, back to back (run.diffOff, run.markOff; k per feature): the
+	// builders' slices are views into them
+	diff    []float64
+	mark    []uint64
+	missing []float64
 }
 
 // worker holds one goroutine's scratch space.
@@ -55,20 +61,29 @@ func (r *run) newWorker() *worker {
 		loss:     newRowLoss(r.metric, r.e),
 		answers:  make([]float64, 1+len(r.perms)),
 	}
-	{
-		rs := &rowState{
-			x:        make([]float64, nf),
-			cls:      make([]int32, nf),
-			table:    make([]int, nf),
-			margin:   make([]float64, k),
-			tests:    make([]float64, nf),
-			builders: make([]*stepBuilder, nf),
-		}
-		for j := range rs.builders {
-			rs.builders[j] = newStepBuilder(&r.vc[j], k)
-		}
-		w.row = rs
+	rs := &rowState{
+		x:        make([]float64, nf),
+		cls:      make([]int32, nf),
+		table:    make([]int, nf),
+		margin:   make([]float64, k),
+		tests:    make([]float64, nf),
+		builders: make([]*stepBuilder, nf),
+		diff:     make([]float64, r.diffOff[nf]),
+		mark:     make([]uint64, r.markOff[nf]),
+		missing:  make([]float64, nf*k),
 	}
+	for j := range rs.builders {
+		b := newStepBuilder(&r.vc[j], k)
+		if !r.vc[j].categorical {
+			// views into the row's flat arrays, which the mask pass
+			// indexes directly
+			b.diff = rs.diff[r.diffOff[j]:r.diffOff[j+1]]
+			b.mark = rs.mark[r.markOff[j]:r.markOff[j+1]]
+			b.sf.missing = rs.missing[j*k : (j+1)*k]
+		}
+		rs.builders[j] = b
+	}
+	w.row = rs
 	w.walker = freeWalker{e: r.e, xgb: r.e.Rule == forest.LessThanFloat32}
 	return w
 }

@@ -55,6 +55,9 @@ type maskForest struct {
 	tableOff []int
 	slots    []int
 	walked   int // trees that do not qualify (walked instead)
+	// diffOff, markOff: run.diffOff, run.markOff (where each feature's
+	// difference array and touched-bin bits sit in a row's flat arrays)
+	diffOff, markOff []int32
 }
 
 // leafMasks turns the leaf-mask form on; tests turn it off to check it
@@ -340,28 +343,27 @@ func (mf *maskForest) scoreMaskTree(sc *maskScratch, rs *rowState, m *maskTree) 
 		acc &= word
 	}
 	cl := int(m.class)
-	allStarts := mf.starts
-	tests, builders := rs.tests, rs.builders
+	allStarts, allKill := mf.starts, mf.kill
+	tests, diffAll, markAll, missing := rs.tests, rs.diff, rs.mark, rs.missing
+	stride := len(rs.margin)
 	for _, pe := range mf.paths[p0:p1] {
 		g := int(pe >> 8)
 		gr := &groups[g]
 		f := gr.feat
-		tests[f] += float64(pe & 0xff)
+		tests[f] += float64(pe & 0xff) // scoreRow marks the builder used
 		others := pre[g] & suf[g]
-		b := builders[f] // scoreRow marks it used (tests > 0)
 		n := int(gr.ncuts)
 		words := allWords[gr.words : int(gr.words)+n+2]
 		starts := allStarts[gr.words : int(gr.words)+n+1]
+		kill := allKill[gr.kill : gr.kill+64]
+		diff := diffAll[mf.diffOff[f]:mf.diffOff[f+1]]
+		mark := markAll[mf.markOff[f]:mf.markOff[f+1]]
 		// one step per distinct leaf, left to right: each adds the change
-		// from the leaf before to every class from its interval's start.
-		// The interval words only lose bits, so the leaf holds until the
-		// first later word without it.
-		diff, mark, stride := b.diff, b.mark, b.k
+		// from the leaf before to every class from its interval's start
 		leaf := bits.TrailingZeros64(others & words[0])
 		d := values[leaf] - own
 		diff[cl] += d
 		mark[0] |= 1
-		kill := mf.kill[gr.kill : gr.kill+64]
 		for {
 			k := int(kill[leaf&63])
 			if k > n {
@@ -374,6 +376,6 @@ func (mf *maskForest) scoreMaskTree(sc *maskScratch, rs *rowState, m *maskTree) 
 			mark[bin>>6] |= 1 << (bin & 63)
 			d = next
 		}
-		b.sf.missing[cl] += values[bits.TrailingZeros64(others&words[n+1])] - own
+		missing[int(f)*stride+cl] += values[bits.TrailingZeros64(others&words[n+1])] - own
 	}
 }

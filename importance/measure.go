@@ -329,7 +329,10 @@ type run struct {
 	walk   [][]wnode
 	masks  *maskForest // leaf-mask form of the trees that qualify
 	missC  []int32     // per feature: its missing class
-	init   []pathState // per feature: every class still on the path
+	// per feature, offsets of its difference array and touched-bin bits in
+	// a row's flat arrays (rowState.diff, .mark); zero length if categorical
+	diffOff, markOff []int32
+	init             []pathState // per feature: every class still on the path
 	// class distributions of each feature in the traffic (weighted),
 	// numeric: prefix sums over bins; special classes separately
 	prefix    [][]float64
@@ -370,9 +373,17 @@ func newRun(e *forest.Ensemble, f *frame.Frame, cfg Config, metric Metric, k int
 	r.walk = compileWalk(e, r.splits, r.vc)
 	r.masks = compileMasks(e, r.splits, r.vc)
 	r.missC = make([]int32, nf)
+	r.diffOff, r.markOff = make([]int32, nf+1), make([]int32, nf+1)
 	for j := range r.vc {
 		r.missC[j] = int32(r.vc[j].missingClass())
+		nd, nm := 0, 0
+		if !r.vc[j].categorical {
+			nd, nm = (r.vc[j].nb+1)*e.NumClass, (r.vc[j].nb+1+63)/64
+		}
+		r.diffOff[j+1] = r.diffOff[j] + int32(nd)
+		r.markOff[j+1] = r.markOff[j] + int32(nm)
 	}
+	r.masks.diffOff, r.masks.markOff = r.diffOff, r.markOff
 	r.init = make([]pathState, nf)
 	for j := range r.vc {
 		r.init[j] = pathState{lo: 0, hi: int32(r.vc[j].nb), m: true, z: r.vc[j].zeroMode}
