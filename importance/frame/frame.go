@@ -6,7 +6,6 @@ package frame
 import (
 	"fmt"
 	"math"
-	"sort"
 )
 
 // Frame is a column-major traffic sample.
@@ -104,10 +103,51 @@ func (f *Frame) Median(j int) float64 {
 	if len(v) == 0 {
 		return math.NaN()
 	}
-	sort.Float64s(v)
 	m := len(v) / 2
+	hi := selectKth(v, m) // v[:m] now holds the m smaller values
 	if len(v)%2 == 1 {
-		return v[m]
+		return hi
 	}
-	return (v[m-1] + v[m]) / 2
+	lo := v[0]
+	for _, x := range v[1:m] {
+		lo = max(lo, x)
+	}
+	return (lo + hi) / 2
+}
+
+// selectKth reorders v (no NaN) so that v[k] is the value a sort would put
+// there, with no larger value before it and no smaller after, and returns
+// it: Hoare's selection with a median-of-three pivot, O(len(v)) on average.
+func selectKth(v []float64, k int) float64 {
+	lo, hi := 0, len(v)-1
+	for hi > lo {
+		mid := lo + (hi-lo)/2
+		// median of three as the pivot
+		a, b, c := v[lo], v[mid], v[hi]
+		p := max(min(a, b), min(max(a, b), c))
+		i, j := lo, hi
+		for i <= j {
+			for v[i] < p {
+				i++
+			}
+			for v[j] > p {
+				j--
+			}
+			if i <= j {
+				v[i], v[j] = v[j], v[i]
+				i++
+				j--
+			}
+		}
+		// [lo, j] <= p, [i, hi] >= p, and (j, i) == p
+		switch {
+		case k <= j:
+			hi = j
+		case k >= i:
+			lo = i
+		default:
+			return v[k]
+		}
+	}
+	return v[k]
 }

@@ -63,3 +63,44 @@ func TestValidate(t *testing.T) {
 		}
 	}
 }
+
+// selectKth against the definition: the k-th value of the sorted slice, for
+// every k, on shapes that trouble quickselect (sorted, reversed, constant,
+// few distinct values, organ pipe) and on random values.
+func TestSelectKthMatchesSort(t *testing.T) {
+	shapes := map[string]func(i, n int) float64{
+		"sorted":    func(i, n int) float64 { return float64(i) },
+		"reversed":  func(i, n int) float64 { return float64(n - i) },
+		"constant":  func(i, n int) float64 { return 7 },
+		"fewValues": func(i, n int) float64 { return float64(i*7919%5) - 2 },
+		"organPipe": func(i, n int) float64 { return float64(min(i, n-i)) },
+		"random":    func(i, n int) float64 { return math.Sin(float64(i)*12.9898) * 43758.5453 },
+	}
+	for name, gen := range shapes {
+		for _, n := range []int{1, 2, 3, 4, 7, 16, 101} {
+			v := make([]float64, n)
+			for i := range v {
+				v[i] = gen(i, n)
+			}
+			want := slices.Clone(v)
+			slices.Sort(want)
+			for k := 0; k < n; k++ {
+				w := slices.Clone(v)
+				got := selectKth(w, k)
+				if got != want[k] {
+					t.Fatalf("%s n=%d k=%d: %v, sorted gives %v", name, n, k, got, want[k])
+				}
+				for i := 0; i < k; i++ {
+					if w[i] > got {
+						t.Fatalf("%s n=%d k=%d: v[%d]=%v above the k-th", name, n, k, i, w[i])
+					}
+				}
+				for i := k + 1; i < n; i++ {
+					if w[i] < got {
+						t.Fatalf("%s n=%d k=%d: v[%d]=%v below the k-th", name, n, k, i, w[i])
+					}
+				}
+			}
+		}
+	}
+}
