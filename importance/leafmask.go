@@ -320,14 +320,7 @@ func (mf *maskForest) scoreMaskTree(sc *maskScratch, rs *rowState, m *maskTree) 
 	allWords, table, rowTable := mf.words, mf.table, rs.table
 	ng := len(groups)
 	pre, suf := sc.pre[:ng], sc.suf[:ng]
-	acc := ^uint64(0)
-	for g := range groups {
-		gr := &groups[g]
-		word := allWords[int(gr.words)+int(table[rowTable[gr.feat]+int(gr.slot)])]
-		pre[g] = acc
-		suf[g] = word // the group's own word until the suffix pass
-		acc &= word
-	}
+	acc := groupWords(groups, allWords, table, rowTable, pre, suf)
 	values := mf.leafValue[m.leaves0:]
 	ownLeaf := int(m.leaves0) + bits.TrailingZeros64(acc)
 	own := mf.leafValue[ownLeaf]
@@ -378,4 +371,23 @@ func (mf *maskForest) scoreMaskTree(sc *maskScratch, rs *rowState, m *maskTree) 
 		}
 		missing[int(f)*stride+cl] += values[bits.TrailingZeros64(others&words[n+1])] - own
 	}
+}
+
+// groupWords sets, for one row and tree, suf[g] to group g's word and pre[g]
+// to the AND of the words before it, and returns the AND of all. A
+// function of its own, not inlined, so that its loop keeps every value in
+// a register (inlined into the caller, the loop spilled to the stack).
+//
+//go:noinline
+func groupWords(groups []maskGroup, words []uint64, table []uint8, rowTable []int, pre, suf []uint64) uint64 {
+	acc := ^uint64(0)
+	pre, suf = pre[:len(groups)], suf[:len(groups)]
+	for g := range groups {
+		gr := &groups[g]
+		word := words[int(gr.words)+int(table[rowTable[gr.feat]+int(gr.slot)])]
+		pre[g] = acc
+		suf[g] = word
+		acc &= word
+	}
+	return acc
 }
