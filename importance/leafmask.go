@@ -357,17 +357,23 @@ func (mf *maskForest) scoreMaskTree(sc *maskScratch, rs *rowState, m *maskTree) 
 		d := values[leaf] - own
 		diff[cl] += d
 		mark[0] |= 1
-		for {
-			k := int(kill[leaf&63])
-			if k > n {
-				break
-			}
-			leaf = bits.TrailingZeros64(others & words[k])
-			next := values[leaf] - own
-			bin := starts[k]
-			diff[int(bin)*stride+cl] += next - d
+		if n == 1 { // a single cut, the commonest group: no loop to mispredict
+			bin := starts[1]
+			diff[int(bin)*stride+cl] += values[bits.TrailingZeros64(others&words[1])] - own - d
 			mark[bin>>6] |= 1 << (bin & 63)
-			d = next
+		} else {
+			for {
+				k := int(kill[leaf&63])
+				if k > n {
+					break
+				}
+				leaf = bits.TrailingZeros64(others & words[k])
+				next := values[leaf] - own
+				bin := starts[k]
+				diff[int(bin)*stride+cl] += next - d
+				mark[bin>>6] |= 1 << (bin & 63)
+				d = next
+			}
 		}
 		missing[int(f)*stride+cl] += values[bits.TrailingZeros64(others&words[n+1])] - own
 	}
