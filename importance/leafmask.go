@@ -87,8 +87,9 @@ type maskGroup struct {
 
 // maskable reports whether tree t can take the leaf-mask form: at most 64
 // leaves (so at most 63 groups and path counts below 64, which fit the
-// 8-bit fields of paths and kill) and only plain numeric splits on features
-// without category sets or a zero class.
+// 8-bit fields of paths and kill) and only numeric threshold splits (NaN
+// may go its own way or zero's) on features without category sets or a
+// zero class.
 func maskable(t *forest.Tree, vc []valueClasses, tooBig []bool) bool {
 	leaves := 0
 	for i := range t.Nodes {
@@ -98,7 +99,9 @@ func maskable(t *forest.Tree, vc []valueClasses, tooBig []bool) bool {
 			continue
 		}
 		c := &vc[n.Feature]
-		if n.Flags&forest.SlowFlags != 0 || c.categorical || c.zeroMode || tooBig[n.Feature] {
+		// LightGBM's NaN-as-zero nodes qualify: the missing class takes
+		// zero's branch there, which nodeSplit.missingLeft already says
+		if n.Flags&(forest.FlagCategorical|forest.FlagZeroIsMissing) != 0 || c.categorical || c.zeroMode || tooBig[n.Feature] {
 			return false
 		}
 	}

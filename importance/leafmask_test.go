@@ -3,10 +3,15 @@ package importance
 import (
 	"math"
 	"math/rand/v2"
+	"os"
+	"path/filepath"
+	"strconv"
+	"strings"
 	"testing"
 
 	"splitledger/importance/forest"
 	"splitledger/importance/frame"
+	"splitledger/storage/treefile"
 )
 
 func TestLastAtOrBelow(t *testing.T) {
@@ -71,21 +76,106 @@ func TestLeafMasksAgreeWithWalks(t *testing.T) {
 			if err != nil {
 				t.Fatal(err)
 			}
-			compared := 0
-			for i := range masked.Features {
-				a, b := masked.Features[i].Traffic, walked.Features[i].Traffic
-				for m := range a {
-					for _, v := range [][2]float64{{a[m].Value, b[m].Value}, {a[m].Lo, b[m].Lo}, {a[m].Hi, b[m].Hi}} {
-						if !(v[0] == v[1] || v[0] != v[0] && v[1] != v[1] || math.Abs(v[0]-v[1]) <= 1e-9*(1+math.Abs(v[1]))) {
-							t.Errorf("%s measure %d: masks %.15g, walks %.15g", masked.Features[i].Feature, m, v[0], v[1])
-						}
-						compared++
-					}
-				}
-			}
-			if compared == 0 {
-				t.Fatal("nothing compared")
-			}
+			sameTables(t, masked, walked)
 		})
 	}
+}
+
+// The same agreement on LightGBM models and rows from the module
+// github.com/dmitryikh/leaves (testdata): numeric splits with NaN taken as
+// zero (leaf masks), category sets (walks, mixed with masks in one model),
+// five and thirteen classes.
+func TestLeafMasksAgreeWithWalksLightGBM(t *testing.T) {
+	dir := leavesTestdata(t)
+	cases := []struct {
+		model, data, sep string
+		skip             int
+	}{
+		{"lg_breast_cancer.txt", "lg_breast_cancer_data.txt", "", 0},
+		{"lg_dart_breast_cancer.model", "breast_cancer_test.tsv", "\t", 0},
+		{"lgmulticlass.model", "multiclass_test.tsv", "\t", 1},
+		{"lg_kddcup99.model", "kddcup99_test.tsv", "\t", 0},
+	}
+	for _, tc := range cases {
+		t.Run(tc.model, func(t *testing.T) {
+			e, err := treefile.ReadFile(filepath.Join(dir, tc.model), treefile.Options{})
+			if err != nil {
+				t.Fatal(err)
+			}
+			f := readWhitespaceTable(t, filepath.Join(dir, tc.data), tc.sep, tc.skip, e.FeatureNames, 400)
+			cfg := Config{Metric: "mean_abs_delta", Replicates: 10, Workers: 2}
+			r, err := newRun(e, f, cfg.withDefaults(), MetricMeanAbsDelta, 0)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if r.masks.walked == len(e.Trees) {
+				t.Fatal("no tree took the leaf-mask form")
+			}
+			a, err := MeasureModel(e, "m", f, cfg)
+			if err != nil {
+				t.Fatal(err)
+			}
+			leafMasks = false
+			b, err := MeasureModel(e, "m", f, cfg)
+			leafMasks = true
+			if err != nil {
+				t.Fatal(err)
+			}
+			sameTables(t, a, b)
+		})
+	}
+}
+
+// sameTables fails unless every traffic measure of a and b (value and
+// interval) agrees to 1e-9 relative, NaN matching NaN.
+func sameTables(t *testing.T, a, b *Table) {
+	t.Helper()
+	compared := 0
+	for i := range a.Features {
+		x, y := a.Features[i].Traffic, b.Features[i].Traffic
+		for m := range x {
+			for _, v := range [][2]float64{{x[m].Value, y[m].Value}, {x[m].Lo, y[m].Lo}, {x[m].Hi, y[m].Hi}} {
+				if !(v[0] == v[1] || v[0] != v[0] && v[1] != v[1] || math.Abs(v[0]-v[1]) <= 1e-9*(1+math.Abs(v[1]))) {
+					t.Errorf("%s measure %d: masks %.15g, walks %.15g", a.Features[i].Feature, m, v[0], v[1])
+				}
+				compared++
+			}
+		}
+	}
+	if compared == 0 {
+		t.Fatal("nothing compared")
+	}
+}
+
+// readWhitespaceTable reads numeric rows (sep "" splits on any white
+// space), drops skip leading columns, keeps at most limit rows and the
+// first len(names) columns, as a frame.
+func readWhitespaceTable(t *testing.T, path, sep string, skip int, names []string, limit int) *frame.Frame {
+	t.Helper()
+	raw, err := os.ReadFile(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	f := &frame.Frame{Names: names, Columns: make([][]float64, len(names)), SampleFraction: 1, Missing: make([]int, len(names))}
+	for ln, line := range strings.Split(string(raw), "\n") {
+		if strings.TrimSpace(line) == "" || f.Rows == limit {
+			continue
+		}
+		toks := strings.Fields(line)
+		if sep != "" {
+			toks = strings.Split(strings.TrimRight(line, "\r"), sep)
+		}
+		if len(toks) < skip+len(names) {
+			t.Fatalf("%s:%d: %d columns, want %d", path, ln+1, len(toks), skip+len(names))
+		}
+		for j := range names {
+			v, err := strconv.ParseFloat(strings.TrimSpace(toks[skip+j]), 64)
+			if err != nil {
+				t.Fatalf("%s:%d: %v", path, ln+1, err)
+			}
+			f.Columns[j] = append(f.Columns[j], v)
+		}
+		f.Rows++
+	}
+	return f
 }
