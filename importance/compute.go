@@ -270,8 +270,8 @@ func (r *run) scoreRow(w *worker, rs *rowState, row int) {
 }
 
 // walkTrees adds one row's part of the trees that do not take the leaf-mask
-// form (category sets, LightGBM's missing rules, more than 64 leaves): the
-// row's own path, then free walks of the features met on it.
+// form (category sets, LightGBM's zero-as-missing splits, more than 64
+// leaves): the row's own path, then free walks of the features met on it.
 func (r *run) walkTrees(w *worker, rs *rowState) {
 	e := r.e
 	for j := range w.pathSeen {
