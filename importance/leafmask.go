@@ -60,13 +60,18 @@ type maskForest struct {
 	diffOff, markOff []int32
 }
 
-// leafMasks turns the leaf-mask form on; tests turn it off to check it
-// against the walks.
-var leafMasks = true
+// leafMasks turns the leaf-mask form on, and maskOnly (when set) limits it
+// to the trees it accepts: tests use them to check the masks against the
+// walks, alone and mixed in one ensemble.
+var (
+	leafMasks = true
+	maskOnly  func(tree int) bool
+)
 
-// maxMaskTable bounds one feature's word-index table (bytes); trees that
-// test a feature whose table would be larger are walked.
-const maxMaskTable = 64 << 20
+// maxMaskTable bounds one feature's word-index table and maxMaskTables all
+// of them (bytes): trees that test a feature whose table would not fit are
+// walked. Variables so tests can force the mixed case.
+var maxMaskTable, maxMaskTables = 64 << 20, 256 << 20
 
 // maskTree locates one tree's records.
 type maskTree struct {
@@ -80,7 +85,7 @@ type maskGroup struct {
 	feat  int32
 	slot  int32 // column in the feature's table
 	ncuts int32
-	words int32 // first interval in maskForest.steps
+	words int32 // first interval in maskForest.words and .starts
 	cuts  int32 // first cut in maskForest.cuts
 	kill  int32 // first kill index in maskForest.kill
 }
@@ -119,7 +124,7 @@ func compileMasks(e *forest.Ensemble, ns [][]nodeSplit, vc []valueClasses) *mask
 	for round := 0; round < 2; round++ {
 		groups := make([]int, nf)
 		for ti := range e.Trees {
-			ok[ti] = leafMasks && maskable(&e.Trees[ti], vc, tooBig)
+			ok[ti] = leafMasks && (maskOnly == nil || maskOnly(ti)) && maskable(&e.Trees[ti], vc, tooBig)
 			if ok[ti] {
 				seen := map[int32]bool{}
 				for i := range e.Trees[ti].Nodes {
@@ -131,8 +136,17 @@ func compileMasks(e *forest.Ensemble, ns [][]nodeSplit, vc []valueClasses) *mask
 				}
 			}
 		}
-		for j := range groups {
-			if (vc[j].nb+1)*groups[j] > maxMaskTable {
+		// the smallest tables first, until the budget is spent
+		order := make([]int, nf)
+		for j := range order {
+			order[j] = j
+		}
+		size := func(j int) int { return (vc[j].nb + 1) * groups[j] }
+		slices.SortStableFunc(order, func(a, b int) int { return size(a) - size(b) })
+		total := 0
+		for _, j := range order {
+			total += size(j)
+			if size(j) > maxMaskTable || total > maxMaskTables {
 				tooBig[j] = true
 			}
 		}

@@ -77,6 +77,14 @@ func TestLeafMasksAgreeWithWalks(t *testing.T) {
 				t.Fatal(err)
 			}
 			sameTables(t, masked, walked)
+			// every other tree masked, the rest walked
+			maskOnly = func(tree int) bool { return tree%2 == 0 }
+			mixed, err := MeasureModel(tc.e, "m", tc.f, cfg)
+			maskOnly = nil
+			if err != nil {
+				t.Fatal(err)
+			}
+			sameTables(t, mixed, walked)
 		})
 	}
 }
@@ -178,4 +186,24 @@ func readWhitespaceTable(t *testing.T, path, sep string, skip int, names []strin
 		f.Rows++
 	}
 	return f
+}
+
+// The table budget: nothing fits in none, everything in the default.
+func TestMaskTableBudget(t *testing.T) {
+	e, f := loadFixture(t, "binary")
+	cfg := Config{Replicates: 5}.withDefaults()
+	for _, c := range []struct {
+		budget, walked int
+	}{{0, len(e.Trees)}, {256 << 20, 0}} {
+		saved := maxMaskTables
+		maxMaskTables = c.budget
+		r, err := newRun(e, f, cfg, MetricLogLoss, 0)
+		maxMaskTables = saved
+		if err != nil {
+			t.Fatal(err)
+		}
+		if r.masks.walked != c.walked {
+			t.Errorf("budget %d: %d trees walked, want %d", c.budget, r.masks.walked, c.walked)
+		}
+	}
 }
