@@ -68,11 +68,27 @@ func (c *valueClasses) classOf(v float64) int {
 	th := c.thresholds
 	if c.rule == forest.LessThanFloat32 {
 		// goes right at threshold t when float32(v) >= t: bin = #{t <= v32}
-		x := float64(float32(v))
-		return sort.Search(len(th), func(i int) bool { return th[i] > x })
+		return countBelow(th, float64(float32(v)), true)
 	}
 	// LightGBM: right when v > t: bin = #{t < v}
-	return sort.SearchFloat64s(th, v)
+	return countBelow(th, v, false)
+}
+
+// countBelow returns the number of elements of the ascending slice th that
+// are below x (orEqual: at or below x), by halving without a closure call.
+func countBelow(th []float64, x float64, orEqual bool) int {
+	lo, n := 0, len(th)
+	for n > 0 {
+		half := n >> 1
+		t := th[lo+half]
+		if t < x || orEqual && t == x {
+			lo += half + 1
+			n -= half + 1
+		} else {
+			n = half
+		}
+	}
+	return lo
 }
 
 // representative returns a value of class k (used to evaluate splits).

@@ -5,6 +5,8 @@ import (
 	"math/rand/v2"
 	"os"
 	"path/filepath"
+	"slices"
+	"sort"
 	"strconv"
 	"strings"
 	"testing"
@@ -204,6 +206,28 @@ func TestMaskTableBudget(t *testing.T) {
 		}
 		if r.masks.walked != c.walked {
 			t.Errorf("budget %d: %d trees walked, want %d", c.budget, r.masks.walked, c.walked)
+		}
+	}
+}
+
+// countBelow against sort.Search, its definition, with ties and infinities.
+func TestCountBelow(t *testing.T) {
+	rng := rand.New(rand.NewPCG(3, 4))
+	for n := 0; n < 30; n++ {
+		th := make([]float64, n)
+		for i := range th {
+			th[i] = float64(rng.IntN(12)) / 2
+		}
+		slices.Sort(th)
+		for _, x := range []float64{math.Inf(-1), -1, 0, 0.25, 0.5, 1, 2.5, 3, 5.5, 6, math.Inf(1)} {
+			le := sort.Search(len(th), func(i int) bool { return th[i] > x })
+			lt := sort.SearchFloat64s(th, x)
+			if got := countBelow(th, x, true); got != le {
+				t.Fatalf("%v at or below %v: %d, want %d", th, x, got, le)
+			}
+			if got := countBelow(th, x, false); got != lt {
+				t.Fatalf("%v below %v: %d, want %d", th, x, got, lt)
+			}
 		}
 	}
 }
