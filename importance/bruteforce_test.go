@@ -172,15 +172,7 @@ func TestDropsMatchBruteForceNDCG(t *testing.T) {
 		t.Fatalf("quality %v, brute force %v", tab.Quality.Value, q0)
 	}
 	for j := range e.FeatureNames {
-		perm := 0.0
-		for _, p := range r.perms {
-			c := make([]float64, n)
-			for row := range c {
-				c[row] = cols[j][p[row]]
-			}
-			perm += q0 - ndcg(scoreRows(e, withColumn(cols, j, c), n))
-		}
-		perm /= float64(len(r.perms))
+		perm := shuffledDrop(e, cols, n, j, r.perms, ndcg, q0)
 		if got := tab.Features[j].Traffic[PermutationDrop].Value; !within(got, perm, 1e-12) {
 			t.Errorf("%s: permutation drop %v, brute force %v", e.FeatureNames[j], got, perm)
 		}
@@ -252,6 +244,20 @@ func headRows(f *frame.Frame, n int) *frame.Frame {
 // the squared error, and meanLoss takes no root for it.
 const squaredErrorOnly = Metric(200)
 
+// shuffledDrop is the mean over the shuffles perms of q0 minus the quality
+// of the rows rescored with column j shuffled.
+func shuffledDrop(e *forest.Ensemble, cols [][]float64, n, j int, perms [][]int32, quality func([]float64) float64, q0 float64) float64 {
+	drop := 0.0
+	for _, p := range perms {
+		c := make([]float64, n)
+		for row := range c {
+			c[row] = cols[j][p[row]]
+		}
+		drop += q0 - quality(scoreRows(e, withColumn(cols, j, c), n))
+	}
+	return drop / float64(len(perms))
+}
+
 // AUC drops use the same shuffles as NDCG; missing-break and freeze are
 // deterministic. All must equal the AUC of the rescored rows.
 func TestDropsMatchBruteForceAUC(t *testing.T) {
@@ -279,15 +285,7 @@ func TestDropsMatchBruteForceAUC(t *testing.T) {
 		for row := range nanCol {
 			nanCol[row], fz[row] = math.NaN(), med
 		}
-		perm := 0.0
-		for _, p := range r.perms {
-			c := make([]float64, n)
-			for row := range c {
-				c[row] = cols[j][p[row]]
-			}
-			perm += q0 - auc(scoreRows(e, withColumn(cols, j, c), n))
-		}
-		perm /= float64(len(r.perms))
+		perm := shuffledDrop(e, cols, n, j, r.perms, auc, q0)
 		got := tab.Features[j].Traffic
 		for _, c := range []struct {
 			m    TrafficMeasure
