@@ -50,22 +50,7 @@ func LogLoss(labels, probs, weights []float64) float64 {
 	if weights != nil {
 		sameLength("LogLoss", len(labels), len(weights))
 	}
-	if len(labels) == 0 {
-		return math.NaN()
-	}
-	var s, t float64
-	for i, y := range labels {
-		w := 1.0
-		if weights != nil {
-			w = weights[i]
-		}
-		s += w * LogLossRow(y, probs[i])
-		t += w
-	}
-	if t == 0 {
-		return math.NaN()
-	}
-	return s / t
+	return weightedMean(len(labels), weights, func(i int) float64 { return LogLossRow(labels[i], probs[i]) })
 }
 
 // MulticlassLogLossRow returns −ln(p_y / Σ_c p_c) for one row in nats,
@@ -103,20 +88,7 @@ func MulticlassLogLoss(labels, probs []float64, classes int, weights []float64) 
 	if weights != nil {
 		sameLength("MulticlassLogLoss", len(labels), len(weights))
 	}
-	if len(labels) == 0 {
-		return math.NaN()
-	}
-	var s, t float64
-	for i, y := range labels {
-		w := 1.0
-		if weights != nil {
-			w = weights[i]
-		}
-		s += w * MulticlassLogLossRow(y, probs[i*classes:(i+1)*classes])
-		t += w
-	}
-	if t == 0 {
-		return math.NaN()
-	}
-	return s / t
+	return weightedMean(len(labels), weights, func(i int) float64 {
+		return MulticlassLogLossRow(labels[i], probs[i*classes:(i+1)*classes])
+	})
 }

@@ -98,3 +98,25 @@ func sameLength(fn string, a, b int) {
 		panic(fmt.Sprintf("metrics: %s: slice lengths %d and %d differ", fn, a, b))
 	}
 }
+
+// weightedMean returns Σ w_i term(i) / Σ w_i over i < n, in index order
+// (weights nil means uniform, else it has n entries). n == 0 or a zero total
+// weight gives NaN; a NaN term gives NaN.
+func weightedMean(n int, weights []float64, term func(i int) float64) float64 {
+	if n == 0 {
+		return math.NaN()
+	}
+	var s, t float64
+	for i := 0; i < n; i++ {
+		w := 1.0
+		if weights != nil {
+			w = weights[i]
+		}
+		s += w * term(i)
+		t += w
+	}
+	if t == 0 {
+		return math.NaN()
+	}
+	return s / t
+}

@@ -13,23 +13,10 @@ func RMSE(predictions, labels, weights []float64) float64 {
 	if weights != nil {
 		sameLength("RMSE", len(predictions), len(weights))
 	}
-	if len(predictions) == 0 {
-		return math.NaN()
-	}
-	var s, t float64
-	for i, p := range predictions {
-		d := p - labels[i]
-		w := 1.0
-		if weights != nil {
-			w = weights[i]
-		}
-		s += w * d * d
-		t += w
-	}
-	if t == 0 {
-		return math.NaN()
-	}
-	return math.Sqrt(s / t)
+	return math.Sqrt(weightedMean(len(predictions), weights, func(i int) float64 {
+		d := predictions[i] - labels[i]
+		return d * d
+	}))
 }
 
 // MeanAbsDelta returns the weighted mean absolute difference Σ w_i |a_i −
@@ -44,20 +31,5 @@ func MeanAbsDelta(a, b, weights []float64) float64 {
 	if weights != nil {
 		sameLength("MeanAbsDelta", len(a), len(weights))
 	}
-	if len(a) == 0 {
-		return math.NaN()
-	}
-	var s, t float64
-	for i, x := range a {
-		w := 1.0
-		if weights != nil {
-			w = weights[i]
-		}
-		s += w * math.Abs(x-b[i])
-		t += w
-	}
-	if t == 0 {
-		return math.NaN()
-	}
-	return s / t
+	return weightedMean(len(a), weights, func(i int) float64 { return math.Abs(a[i] - b[i]) })
 }
