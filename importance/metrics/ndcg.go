@@ -197,16 +197,20 @@ func DCGGains(scores, gains []float64, k int, scratch *NDCGScratch) float64 {
 	if scratch == nil {
 		scratch = new(NDCGScratch)
 	}
+	items := slices.Grow(scratch.items[:0], n)[:n]
+	for i, s := range scores {
+		if s != s {
+			s = math.Inf(-1)
+		}
+		items[i] = rankedGain{score: s, gain: gains[i]}
+	}
 	// Only the items scoring at or above the k-th largest score can reach
 	// the first k positions (with every item tied at that score, whose
 	// gains are averaged): find that score, keep those items, sort them.
-	cut := math.Inf(-1)
 	if k < n {
 		top := slices.Grow(scratch.top[:0], k)[:0]
-		for _, s := range scores {
-			if s != s {
-				s = math.Inf(-1)
-			}
+		for _, it := range items {
+			s := it.score
 			if len(top) == k {
 				if !(s > top[k-1]) {
 					continue
@@ -221,16 +225,14 @@ func DCGGains(scores, gains []float64, k int, scratch *NDCGScratch) float64 {
 			top[i] = s
 		}
 		scratch.top = top
-		cut = top[k-1]
-	}
-	items := slices.Grow(scratch.items[:0], n)[:0]
-	for i, s := range scores {
-		if s != s {
-			s = math.Inf(-1)
+		cut := top[k-1]
+		kept := items[:0]
+		for _, it := range items {
+			if it.score >= cut {
+				kept = append(kept, it)
+			}
 		}
-		if s >= cut {
-			items = append(items, rankedGain{score: s, gain: gains[i]})
-		}
+		items = kept
 	}
 	scratch.items = items
 	n = len(items)
