@@ -28,7 +28,6 @@ type worker struct {
 	row      *rowState
 	zero     []float64
 	delta    []float64
-	pert     []float64
 	pathSeen []int32 // stamp per feature: tree index + 1 when met on the path
 	onPath   []int32 // first path node of each feature met on the current tree's path, in order
 	path     []int32 // internal nodes of the current tree's own path, root first
@@ -55,7 +54,6 @@ func (r *run) newWorker() *worker {
 	w := &worker{
 		zero:     make([]float64, k),
 		delta:    make([]float64, k),
-		pert:     make([]float64, k),
 		pathSeen: make([]int32, nf),
 		state:    make([]pathState, nf),
 		loss:     newRowLoss(r.metric, r.e),
