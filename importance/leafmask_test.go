@@ -3,17 +3,15 @@ package importance
 import (
 	"math"
 	"math/rand/v2"
-	"os"
 	"path/filepath"
 	"slices"
 	"sort"
-	"strconv"
-	"strings"
 	"testing"
 
 	"splitledger/importance/forest"
 	"splitledger/importance/frame"
 	"splitledger/storage/treefile"
+	"splitledger/storage/treefile/leavesref"
 )
 
 func TestLastAtOrBelow(t *testing.T) {
@@ -96,7 +94,7 @@ func TestLeafMasksAgreeWithWalks(t *testing.T) {
 // zero (leaf masks), category sets (walks, mixed with masks in one model),
 // five and thirteen classes.
 func TestLeafMasksAgreeWithWalksLightGBM(t *testing.T) {
-	dir := leavesTestdata(t)
+	dir := leavesref.Dir(t)
 	cases := []struct {
 		model, data, sep string
 		skip             int
@@ -157,33 +155,18 @@ func sameTables(t *testing.T, a, b *Table) {
 	}
 }
 
-// readWhitespaceTable reads numeric rows (sep "" splits on any white
-// space), drops skip leading columns, keeps at most limit rows and the
-// first len(names) columns, as a frame.
+// readWhitespaceTable reads a numeric table (leavesref.ReadTable), keeping
+// at most limit rows and the first len(names) columns, as a frame.
 func readWhitespaceTable(t *testing.T, path, sep string, skip int, names []string, limit int) *frame.Frame {
 	t.Helper()
-	raw, err := os.ReadFile(path)
-	if err != nil {
-		t.Fatal(err)
-	}
+	rows := leavesref.ReadTable(t, path, sep, skip)
 	f := &frame.Frame{Names: names, Columns: make([][]float64, len(names)), SampleFraction: 1, Missing: make([]int, len(names))}
-	for ln, line := range strings.Split(string(raw), "\n") {
-		if strings.TrimSpace(line) == "" || f.Rows == limit {
-			continue
-		}
-		toks := strings.Fields(line)
-		if sep != "" {
-			toks = strings.Split(strings.TrimRight(line, "\r"), sep)
-		}
-		if len(toks) < skip+len(names) {
-			t.Fatalf("%s:%d: %d columns, want %d", path, ln+1, len(toks), skip+len(names))
+	for r, row := range rows[:min(limit, len(rows))] {
+		if len(row) < len(names) {
+			t.Fatalf("%s row %d: %d columns, want %d", path, r+1, len(row), len(names))
 		}
 		for j := range names {
-			v, err := strconv.ParseFloat(strings.TrimSpace(toks[skip+j]), 64)
-			if err != nil {
-				t.Fatalf("%s:%d: %v", path, ln+1, err)
-			}
-			f.Columns[j] = append(f.Columns[j], v)
+			f.Columns[j] = append(f.Columns[j], row[j])
 		}
 		f.Rows++
 	}

@@ -2,17 +2,15 @@ package importance
 
 import (
 	"encoding/json"
-	"errors"
 	"math"
 	"os"
-	"os/exec"
 	"path/filepath"
 	"strconv"
 	"strings"
-	"sync"
 	"testing"
 
 	"splitledger/storage/treefile"
+	"splitledger/storage/treefile/leavesref"
 )
 
 // closeRel reports whether got is within rel of want, relative to
@@ -82,39 +80,6 @@ func TestStructureMatchesXGBoostGetScore(t *testing.T) {
 			}
 		})
 	}
-}
-
-var (
-	leavesOnce sync.Once
-	leavesDir  string
-	leavesErr  error
-)
-
-// leavesTestdata returns the testdata folder of the Go module
-// github.com/dmitryikh/leaves (a test requirement of this module), which
-// ships real LightGBM model files, or skips when the module cannot be found.
-func leavesTestdata(t *testing.T) string {
-	t.Helper()
-	leavesOnce.Do(func() {
-		out, err := exec.Command("go", "list", "-m", "-f", "{{.Dir}}", "github.com/dmitryikh/leaves").Output()
-		if err != nil {
-			leavesErr = err
-			return
-		}
-		dir := strings.TrimSpace(string(out))
-		if dir == "" {
-			leavesErr = errors.New("module not in the module cache")
-			return
-		}
-		leavesDir = filepath.Join(dir, "testdata")
-		if _, err := os.Stat(leavesDir); err != nil {
-			leavesErr, leavesDir = err, ""
-		}
-	})
-	if leavesErr != nil {
-		t.Skipf("LightGBM model files of github.com/dmitryikh/leaves not found (%v): run `go mod download github.com/dmitryikh/leaves`", leavesErr)
-	}
-	return leavesDir
 }
 
 // lightgbmFileImportance reads what a LightGBM model file says about its own
@@ -203,7 +168,7 @@ func lightgbmFileImportance(t *testing.T, path string) (section map[string]int, 
 // Features the section leaves out must be 0 in ours. Gain tolerance 1e-9
 // relative (the same decimal text, summed in a different order).
 func TestStructureMatchesLightGBMFileImportance(t *testing.T) {
-	dir := leavesTestdata(t)
+	dir := leavesref.Dir(t)
 	for _, file := range []string{
 		"lg_breast_cancer.txt", "lg_dart_breast_cancer.model", "lg_kddcup99.model", "lg_rf_iris.model",
 		"lgmulticlass.model", "model_simple.txt", "genlin_fmtp_gamma_AvgClaimAmount.model",

@@ -2,18 +2,15 @@ package treeshap
 
 import (
 	"encoding/csv"
-	"errors"
 	"math"
 	"os"
-	"os/exec"
 	"path/filepath"
 	"strconv"
-	"strings"
-	"sync"
 	"testing"
 
 	"splitledger/importance/forest"
 	"splitledger/storage/treefile"
+	"splitledger/storage/treefile/leavesref"
 )
 
 // modelsDir holds the XGBoost 1.7.4 reference fixtures written by
@@ -145,64 +142,6 @@ func TestXGBoostContribs(t *testing.T) {
 	}
 }
 
-var (
-	leavesOnce sync.Once
-	leavesDir  string
-	leavesErr  error
-)
-
-// lightGBMTestdata returns the testdata folder of the Go module
-// github.com/dmitryikh/leaves, which ships LightGBM models with LightGBM's
-// own predictions, or skips: it is an optional external source.
-func lightGBMTestdata(tb testing.TB) string {
-	tb.Helper()
-	const module = "github.com/dmitryikh/leaves"
-	leavesOnce.Do(func() {
-		out, err := exec.Command("go", "list", "-m", "-f", "{{.Dir}}", module).Output()
-		if err != nil {
-			leavesErr = err
-			return
-		}
-		dir := strings.TrimSpace(string(out))
-		if dir == "" {
-			leavesErr = errors.New("module not in the module cache")
-			return
-		}
-		leavesDir = filepath.Join(dir, "testdata")
-		_, leavesErr = os.Stat(leavesDir)
-	})
-	if leavesErr != nil {
-		tb.Skipf("LightGBM reference files of %s not found (%v); run `go mod download %s`", module, leavesErr, module)
-	}
-	return leavesDir
-}
-
-// readTable reads whitespace-separated numbers, skipping skip leading
-// columns (a label).
-func readTable(tb testing.TB, path string, skip int) [][]float64 {
-	tb.Helper()
-	b, err := os.ReadFile(path)
-	if err != nil {
-		tb.Fatal(err)
-	}
-	var out [][]float64
-	for ln, line := range strings.Split(string(b), "\n") {
-		toks := strings.Fields(line)
-		if len(toks) == 0 {
-			continue
-		}
-		if len(toks) < skip {
-			tb.Fatalf("%s:%d: %d columns", path, ln+1, len(toks))
-		}
-		row := make([]float64, 0, len(toks)-skip)
-		for _, tok := range toks[skip:] {
-			row = append(row, parseCell(tb, path, ln+1, tok))
-		}
-		out = append(out, row)
-	}
-	return out
-}
-
 // TestLightGBMLocalAccuracy checks local accuracy (Lundberg, Erion & Lee
 // 2018) on real LightGBM models: bias + Σφ must equal LightGBM's own raw
 // prediction, shipped beside each model in github.com/dmitryikh/leaves
@@ -213,7 +152,7 @@ func readTable(tb testing.TB, path string, skip int) [][]float64 {
 // Tolerance: the files carry 17 digits, so 1e-9 relative to max(|p|, 1)
 // leaves room only for float64 rounding over the trees.
 func TestLightGBMLocalAccuracy(t *testing.T) {
-	dir := lightGBMTestdata(t)
+	dir := leavesref.Dir(t)
 	cases := []struct {
 		name, model, data string
 		skip              int    // label columns in data
@@ -233,7 +172,7 @@ func TestLightGBMLocalAccuracy(t *testing.T) {
 			if err != nil {
 				t.Fatal(err)
 			}
-			rows := readTable(t, filepath.Join(dir, tc.data), tc.skip)
+			rows := leavesref.ReadTable(t, filepath.Join(dir, tc.data), "", tc.skip)
 			nf, k, n := e.NumFeatures(), e.NumClass, len(rows)
 			cols := make([][]float64, nf)
 			for j := range cols {
@@ -247,7 +186,7 @@ func TestLightGBMLocalAccuracy(t *testing.T) {
 			}
 			var truth [][]float64
 			if tc.truth != "" {
-				truth = readTable(t, filepath.Join(dir, tc.truth), 0)
+				truth = leavesref.ReadTable(t, filepath.Join(dir, tc.truth), "", 0)
 			} else {
 				m := make([]float64, n*k)
 				e.Margins(m, cols, n, 1)

@@ -1,109 +1,19 @@
 package treefile
 
 import (
-	"bufio"
 	"bytes"
 	"errors"
 	"fmt"
 	"math"
 	"os"
-	"os/exec"
 	"path/filepath"
 	"strconv"
 	"strings"
-	"sync"
 	"testing"
 
 	"splitledger/importance/forest"
-
-	// The module ships real LightGBM models with LightGBM's own predictions
-	// in its testdata folder; the blank import keeps it a requirement of
-	// this module so the tests below can find those files.
-	_ "github.com/dmitryikh/leaves"
+	"splitledger/storage/treefile/leavesref"
 )
-
-// lgbLeavesModule is the import path of the module whose testdata holds the
-// LightGBM reference models and predictions.
-const lgbLeavesModule = "github.com/dmitryikh/leaves"
-
-var (
-	lgbLeavesOnce sync.Once
-	lgbLeavesPath string
-	lgbLeavesErr  error
-)
-
-// lgbFindLeaves locates the testdata folder of the leaves module once.
-func lgbFindLeaves() {
-	out, err := exec.Command("go", "list", "-m", "-f", "{{.Dir}}", lgbLeavesModule).Output()
-	if err != nil {
-		lgbLeavesErr = err
-		return
-	}
-	dir := strings.TrimSpace(string(out))
-	if dir == "" {
-		lgbLeavesErr = errors.New("module not in the module cache")
-		return
-	}
-	lgbLeavesPath = filepath.Join(dir, "testdata")
-	if _, err := os.Stat(lgbLeavesPath); err != nil {
-		lgbLeavesErr = err
-		lgbLeavesPath = ""
-	}
-}
-
-// lgbLeavesTestdata returns the testdata folder of the leaves module, or skips
-// the test when the module cannot be found (it is an optional external
-// source of reference values).
-func lgbLeavesTestdata(tb testing.TB) string {
-	tb.Helper()
-	lgbLeavesOnce.Do(lgbFindLeaves)
-	if lgbLeavesErr != nil {
-		tb.Skipf("LightGBM reference files of %s not found (%v); run `go mod download %s`", lgbLeavesModule, lgbLeavesErr, lgbLeavesModule)
-	}
-	return lgbLeavesPath
-}
-
-// lgbReadTable reads a delimited numeric text file into rows. sep "" splits on
-// any run of spaces or tabs. skipCols drops leading columns (a label).
-func lgbReadTable(tb testing.TB, path, sep string, skipCols int) [][]float64 {
-	tb.Helper()
-	f, err := os.Open(path)
-	if err != nil {
-		tb.Fatal(err)
-	}
-	defer f.Close()
-	var rows [][]float64
-	sc := bufio.NewScanner(f)
-	sc.Buffer(make([]byte, 1<<20), 1<<24)
-	for ln := 1; sc.Scan(); ln++ {
-		line := strings.TrimSpace(sc.Text())
-		if line == "" {
-			continue
-		}
-		var toks []string
-		if sep == "" {
-			toks = strings.Fields(line)
-		} else {
-			toks = strings.Split(line, sep)
-		}
-		if len(toks) < skipCols {
-			tb.Fatalf("%s:%d: %d columns", path, ln, len(toks))
-		}
-		row := make([]float64, 0, len(toks)-skipCols)
-		for _, tok := range toks[skipCols:] {
-			v, err := strconv.ParseFloat(strings.TrimSpace(tok), 64)
-			if err != nil {
-				tb.Fatalf("%s:%d: %v", path, ln, err)
-			}
-			row = append(row, v)
-		}
-		rows = append(rows, row)
-	}
-	if err := sc.Err(); err != nil {
-		tb.Fatal(err)
-	}
-	return rows
-}
 
 // lgbReadLibSVM reads "label idx:value ..." rows with nFeatures columns; absent
 // entries are 0, as LightGBM reads sparse input.
@@ -184,7 +94,7 @@ func lgbCloseRel(got, want, rel float64) bool {
 // predictions written by LightGBM's predict / task=predict); the scripts
 // and commands that made them are in that folder's README.md and *.py.
 func TestLightGBMTextReferencePredictions(t *testing.T) {
-	dir := lgbLeavesTestdata(t)
+	dir := leavesref.Dir(t)
 	// rel is the relative tolerance on max(|prediction|, 1). The files
 	// carry 17 significant digits, and summing leaf values in tree order as
 	// LightGBM does leaves only rounding differences of order 1e-15.
@@ -249,9 +159,9 @@ func TestLightGBMTextReferencePredictions(t *testing.T) {
 			if tc.sep == "libsvm" {
 				rows = lgbReadLibSVM(t, filepath.Join(dir, tc.data), nf)
 			} else {
-				rows = lgbReadTable(t, filepath.Join(dir, tc.data), tc.sep, tc.skipCols)
+				rows = leavesref.ReadTable(t, filepath.Join(dir, tc.data), tc.sep, tc.skipCols)
 			}
-			truth := lgbReadTable(t, filepath.Join(dir, tc.truth), "", 0)
+			truth := leavesref.ReadTable(t, filepath.Join(dir, tc.truth), "", 0)
 			if len(truth) != len(rows) {
 				t.Fatalf("%d rows, %d predictions", len(rows), len(truth))
 			}
@@ -285,10 +195,10 @@ func TestLightGBMTextReferencePredictions(t *testing.T) {
 // pred_leaf=True on lg_breast_cancer_data.txt) for the v3 model
 // lg_breast_cancer.txt, in github.com/dmitryikh/leaves testdata.
 func TestLightGBMTextPredictedLeaves(t *testing.T) {
-	dir := lgbLeavesTestdata(t)
+	dir := leavesref.Dir(t)
 	e := lgbReadModel(t, filepath.Join(dir, "lg_breast_cancer.txt"))
-	rows := lgbReadTable(t, filepath.Join(dir, "lg_breast_cancer_data.txt"), "", 0)
-	leaves := lgbReadTable(t, filepath.Join(dir, "lg_breast_cancer_data_pred_leaves.txt"), "", 0)
+	rows := leavesref.ReadTable(t, filepath.Join(dir, "lg_breast_cancer_data.txt"), "", 0)
+	leaves := leavesref.ReadTable(t, filepath.Join(dir, "lg_breast_cancer_data_pred_leaves.txt"), "", 0)
 	if len(rows) != len(leaves) || len(rows) == 0 {
 		t.Fatalf("%d rows, %d leaf rows", len(rows), len(leaves))
 	}
@@ -312,7 +222,7 @@ func TestLightGBMTextPredictedLeaves(t *testing.T) {
 // split, in src/boosting/gbdt_model_text.cpp). Source: the model files of
 // github.com/dmitryikh/leaves testdata.
 func TestLightGBMTextSplitCounts(t *testing.T) {
-	dir := lgbLeavesTestdata(t)
+	dir := leavesref.Dir(t)
 	for _, model := range []string{
 		"lg_breast_cancer.txt", "lgmulticlass.model", "lg_kddcup99.model",
 		"lg_rf_iris.model", "genlin_fmtp_poisson_Frequency.model",
@@ -838,7 +748,7 @@ func TestLightGBMTextDoesNotKeepInput(t *testing.T) {
 func FuzzReadLightGBMText(f *testing.F) {
 	f.Add(lgbTinyText(f, "", ""))
 	f.Add(lgbTinyText(f, "objective=binary sigmoid:1\n", "objective=multiclassova num_class:1\naverage_output\n"))
-	if dir := lgbLeavesDirIfPresent(); dir != "" {
+	if dir, err := leavesref.Find(); err == nil {
 		for _, name := range []string{"model_simple.txt", "lg_rf_iris.model"} {
 			if b, err := os.ReadFile(filepath.Join(dir, name)); err == nil {
 				f.Add(b)
@@ -869,17 +779,11 @@ func FuzzReadLightGBMText(f *testing.F) {
 	})
 }
 
-// lgbLeavesDirIfPresent is lgbLeavesTestdata without skipping: "" when absent.
-func lgbLeavesDirIfPresent() string {
-	lgbLeavesOnce.Do(lgbFindLeaves)
-	return lgbLeavesPath
-}
-
 // BenchmarkReadLightGBMText parses real LightGBM models (leaves module
 // testdata): a 130-tree 13-class model with categorical splits and a
 // 100-tree regression model with 32 leaves per tree.
 func BenchmarkReadLightGBMText(b *testing.B) {
-	dir := lgbLeavesTestdata(b)
+	dir := leavesref.Dir(b)
 	for _, name := range []string{"lg_kddcup99.model", "genlin_fmtp_poisson_Frequency.model"} {
 		data, err := os.ReadFile(filepath.Join(dir, name))
 		if err != nil {
