@@ -71,15 +71,10 @@ func (r *run) newWorker() *worker {
 		missing:  make([]float64, nf*k),
 	}
 	for j := range rs.builders {
-		b := newStepBuilder(&r.vc[j], k)
-		if !r.vc[j].categorical {
-			// views into the row's flat arrays, which the mask pass
-			// indexes directly
-			b.diff = rs.diff[r.diffOff[j]:r.diffOff[j+1]]
-			b.mark = rs.mark[r.markOff[j]:r.markOff[j+1]]
-			b.sf.missing = rs.missing[j*k : (j+1)*k]
-		}
-		rs.builders[j] = b
+		// views into the row's flat arrays, which the mask pass indexes
+		// directly
+		rs.builders[j] = newStepBuilder(&r.vc[j], k, rs.diff[r.diffOff[j]:r.diffOff[j+1]],
+			rs.mark[r.markOff[j]:r.markOff[j+1]], rs.missing[j*k:(j+1)*k])
 	}
 	w.row = rs
 	w.walker = freeWalker{e: r.e, xgb: r.e.Rule == forest.LessThanFloat32}

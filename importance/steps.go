@@ -36,15 +36,17 @@ type stepBuilder struct {
 	sf    stepFunction
 }
 
-func newStepBuilder(vc *valueClasses, k int) *stepBuilder {
+// newStepBuilder makes the builder of one feature. A numeric feature's
+// difference array ((nb+1)*k values), touched-bin bits ((nb+1+63)/64 words)
+// and missing values (k) are the given slices, views into the row's flat
+// arrays; a categorical feature ignores them.
+func newStepBuilder(vc *valueClasses, k int, diff []float64, mark []uint64, missing []float64) *stepBuilder {
 	b := &stepBuilder{vc: vc, k: k}
 	if vc.categorical {
 		b.sf.dense = make([]float64, vc.n*k)
 	} else {
-		b.diff = make([]float64, (vc.nb+1)*k)
-		b.mark = make([]uint64, (vc.nb+1+63)/64)
+		b.diff, b.mark, b.sf.missing = diff, mark, missing
 		b.sink = int32(vc.nb)
-		b.sf.missing = make([]float64, k)
 		b.sf.zero = make([]float64, k)
 	}
 	return b
