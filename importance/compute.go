@@ -40,6 +40,7 @@ type worker struct {
 	// layout [row][feature][0:miss 1:freeze 2..: repeats] (K=1 models)
 	chunkScores []float64
 	chunkBase   []float64
+	donors      [][]int32 // shuffled metrics: the classes of each shuffle's donor row
 	queries     []int32   // shuffled metrics: the classes asked of one step function
 	answers     []float64 // and its values there
 	ndcg        metrics.NDCGScratch
@@ -174,6 +175,12 @@ func (r *run) keepPerturbed(w *worker, rs *rowState, row, local int) {
 	np := r.nPert()
 	w.chunkBase[local] = rs.margin[0]
 	base := local * nf * np
+	// each shuffle's donor row, whose classes the row receives
+	donors := w.donors[:0]
+	for _, p := range r.perms {
+		donors = append(donors, r.rowClass[int(p[row])*nf:int(p[row]+1)*nf])
+	}
+	w.donors = donors
 	for j := 0; j < nf; j++ {
 		s := w.chunkScores[base+j*np : base+(j+1)*np]
 		b := rs.builders[j]
@@ -189,8 +196,8 @@ func (r *run) keepPerturbed(w *worker, rs *rowState, row, local int) {
 		// the classes asked for: the median, then each shuffle's
 		qs := w.queries[:0]
 		qs = append(qs, int32(r.medianC[j]))
-		for k := range r.perms {
-			qs = append(qs, r.permClass[k][j][row])
+		for _, d := range donors {
+			qs = append(qs, d[j])
 		}
 		w.queries = qs
 		vals := w.answers[:len(qs)]
@@ -232,8 +239,8 @@ func (r *run) scoreRow(w *worker, rs *rowState, row int) {
 		rs.x[j] = r.cols[j][row]
 		rs.tests[j] = 0
 		rs.builders[j].start()
-		if r.classOf != nil {
-			rs.cls[j] = r.classOf[j][row]
+		if r.rowClass != nil {
+			rs.cls[j] = r.rowClass[row*len(rs.x)+j]
 		} else {
 			rs.cls[j] = int32(r.vc[j].classOf(rs.x[j]))
 		}

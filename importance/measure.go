@@ -338,9 +338,8 @@ type run struct {
 	prefix    [][]float64
 	pClass    [][]float64 // categorical: mass per class; numeric: [missing, zero]
 	medianC   []int       // class of the median per feature
-	classOf   [][]int32   // per feature, class of each row (shuffled metrics)
-	perms     [][]int32   // per repeat, a permutation of rows
-	permClass [][][]int32 // per repeat and feature, the class each row receives
+	rowClass  []int32     // shuffled metrics: each row's class per feature, row by row (rows x features)
+	perms     [][]int32   // per repeat, a permutation of rows: row i takes row perms[k][i]'s values
 	units     [][]int32
 	chunks    [][2]int // unit ranges
 	lay       layout
@@ -371,7 +370,7 @@ func newRun(e *forest.Ensemble, f *frame.Frame, cfg Config, metric Metric, k int
 	r.vc = buildClasses(e, r.cols, medians)
 	r.splits = compileSplits(e, r.vc)
 	r.walk = compileWalk(e, r.splits, r.vc)
-	r.masks = compileMasks(e, r.splits, r.vc)
+	r.masks = compileMasks(e, r.splits, r.vc, cfg.Workers)
 	r.missC = make([]int32, nf)
 	r.diffOff, r.markOff = make([]int32, nf+1), make([]int32, nf+1)
 	for j := range r.vc {
@@ -423,14 +422,16 @@ func newRun(e *forest.Ensemble, f *frame.Frame, cfg Config, metric Metric, k int
 			r.pClass[j] = mass[c.nb:]
 		})
 	} else {
-		r.classOf = make([][]int32, nf)
-		parallel.Chunks(nf, 1, cfg.Workers, func(_, j, _ int) {
-			c := &r.vc[j]
-			cl := make([]int32, f.Rows)
-			for row, v := range r.cols[j] {
-				cl[row] = int32(c.classOf(v))
+		// row by row, so a shuffle's donor row is one read (two cache
+		// lines), not one per feature
+		r.rowClass = make([]int32, f.Rows*nf)
+		parallel.Chunks(f.Rows, 4096, cfg.Workers, func(_, lo, hi int) {
+			for j := range r.vc {
+				c, col := &r.vc[j], r.cols[j]
+				for row := lo; row < hi; row++ {
+					r.rowClass[row*nf+j] = int32(c.classOf(col[row]))
+				}
 			}
-			r.classOf[j] = cl
 		})
 		rng := rand.New(rand.NewPCG(cfg.Seed, 0x5eed5eed))
 		r.perms = make([][]int32, cfg.Repeats)
@@ -442,22 +443,6 @@ func newRun(e *forest.Ensemble, f *frame.Frame, cfg Config, metric Metric, k int
 			rng.Shuffle(len(p), func(a, b int) { p[a], p[b] = p[b], p[a] })
 			r.perms[i] = p
 		}
-		// the class each row receives in each shuffle, in row order, so the
-		// pass reads it sequentially (the random reads happen here, once)
-		r.permClass = make([][][]int32, cfg.Repeats)
-		for k := range r.perms {
-			r.permClass[k] = make([][]int32, nf)
-		}
-		parallel.Chunks(nf, 1, cfg.Workers, func(_, j, _ int) {
-			cl := r.classOf[j]
-			for k, p := range r.perms {
-				pc := make([]int32, f.Rows)
-				for row, src := range p {
-					pc[row] = cl[src]
-				}
-				r.permClass[k][j] = pc
-			}
-		})
 	}
 	// units: query groups (metric and bootstrap clusters), else rows
 	if f.Group != nil {
