@@ -23,6 +23,8 @@ type valueClasses struct {
 	rule        forest.Rule
 	categorical bool
 	thresholds  []float64 // numeric: sorted distinct thresholds
+	// numeric: the thresholds' orderKey values, for a branch-free search
+	thresholdKeys []int64
 	zeroMode    bool
 	nb          int // numeric bins = len(thresholds)+1
 	// categorical mode: class per distinct value (NaN separately)
@@ -65,30 +67,56 @@ func (c *valueClasses) classOf(v float64) int {
 	if c.zeroMode && math.Abs(v) <= forest.ZeroThreshold {
 		return c.nb + 1
 	}
-	th := c.thresholds
+	keys := c.thresholdKeys
 	if c.rule == forest.LessThanFloat32 {
 		// goes right at threshold t when float32(v) >= t: bin = #{t <= v32}
-		return countBelow(th, float64(float32(v)), true)
+		return countBelow(keys, orderKey(float64(float32(v))), true)
 	}
 	// LightGBM: right when v > t: bin = #{t < v}
-	return countBelow(th, v, false)
+	return countBelow(keys, orderKey(v), false)
 }
 
-// countBelow returns the number of elements of the ascending slice th that
-// are below x (orEqual: at or below x), by halving without a closure call.
-func countBelow(th []float64, x float64, orEqual bool) int {
-	lo, n := 0, len(th)
-	for n > 0 {
-		half := n >> 1
-		t := th[lo+half]
-		if t < x || orEqual && t == x {
-			lo += half + 1
-			n -= half + 1
-		} else {
-			n = half
-		}
+// countBelow returns the number of elements of the ascending slice keys
+// that are below x (orEqual: at or below x); keys and x are orderKey
+// values. It halves without a branch on the comparison, so the search
+// costs no mispredictions.
+func countBelow(keys []int64, x int64, orEqual bool) int {
+	n := len(keys)
+	if n == 0 {
+		return 0
 	}
-	return lo
+	if orEqual {
+		x++ // at or below x: below x+1 (keys of finite floats never reach MaxInt64)
+	}
+	lo := 0
+	for n > 1 {
+		half := n >> 1
+		lo += half & int(below(keys[lo+half], x))
+		n -= half
+	}
+	return lo - int(below(keys[lo], x))
+}
+
+// below returns -1 when a < b and 0 otherwise, without a branch and without
+// overflow (Warren, Hacker's Delight, 2nd ed., section 2-12: the sign of
+// a-b, corrected where the subtraction overflows). Go does not compile a
+// conditional add inside a loop to a conditional move, so the searches
+// use this mask instead.
+func below(a, b int64) int64 {
+	d := a - b
+	return (d ^ ((a ^ b) & (d ^ a))) >> 63
+}
+
+// orderKey maps a float (not NaN) to an integer of the same order: the bits
+// of a non-negative float already sort as integers, and a negative one's
+// bits below the sign are flipped so that larger magnitudes sort lower.
+// -0 maps to +0's key, as the two compare equal.
+func orderKey(x float64) int64 {
+	if x == 0 {
+		x = 0 // -0 to +0
+	}
+	b := int64(math.Float64bits(x))
+	return b ^ (b>>63)&math.MaxInt64
 }
 
 // representative returns a value of class k (used to evaluate splits).
@@ -169,6 +197,10 @@ func buildClasses(e *forest.Ensemble, cols [][]float64, medians []float64) []val
 			}
 		}
 		c.thresholds = u
+		c.thresholdKeys = make([]int64, len(u))
+		for i, v := range u {
+			c.thresholdKeys[i] = orderKey(v)
+		}
 		c.nb = len(u) + 1
 		c.n = c.nb + 1
 		if c.zeroMode {

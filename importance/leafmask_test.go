@@ -193,22 +193,30 @@ func TestMaskTableBudget(t *testing.T) {
 	}
 }
 
-// countBelow against sort.Search, its definition, with ties and infinities.
+// countBelow on orderKey values against sort.Search on the floats, its
+// definition, with ties, signs, both zeros, tiny and huge magnitudes and
+// infinities.
 func TestCountBelow(t *testing.T) {
 	rng := rand.New(rand.NewPCG(3, 4))
+	pool := []float64{math.Inf(-1), -math.MaxFloat64, -3, -1.5, -math.SmallestNonzeroFloat64,
+		math.Copysign(0, -1), 0, math.SmallestNonzeroFloat64, 0.25, 1, 2.5, math.MaxFloat64, math.Inf(1)}
 	for n := 0; n < 30; n++ {
 		th := make([]float64, n)
 		for i := range th {
-			th[i] = float64(rng.IntN(12)) / 2
+			th[i] = pool[rng.IntN(len(pool))]
 		}
 		slices.Sort(th)
-		for _, x := range []float64{math.Inf(-1), -1, 0, 0.25, 0.5, 1, 2.5, 3, 5.5, 6, math.Inf(1)} {
+		keys := make([]int64, n)
+		for i, v := range th {
+			keys[i] = orderKey(v)
+		}
+		for _, x := range append(pool, -2, -0.5, 0.1, 3) {
 			le := sort.Search(len(th), func(i int) bool { return th[i] > x })
 			lt := sort.SearchFloat64s(th, x)
-			if got := countBelow(th, x, true); got != le {
+			if got := countBelow(keys, orderKey(x), true); got != le {
 				t.Fatalf("%v at or below %v: %d, want %d", th, x, got, le)
 			}
-			if got := countBelow(th, x, false); got != lt {
+			if got := countBelow(keys, orderKey(x), false); got != lt {
 				t.Fatalf("%v below %v: %d, want %d", th, x, got, lt)
 			}
 		}

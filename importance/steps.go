@@ -223,9 +223,9 @@ func lastAtOrBelow(s []int32, c int32) int {
 	lo := 0
 	for n > 1 {
 		half := n >> 1
-		if s[lo+half] <= c {
-			lo += half
-		}
+		// all ones when s[lo+half] <= c (int64: no overflow); Go does not
+		// compile a conditional add in a loop to a conditional move
+		lo += half & int(^((int64(c) - int64(s[lo+half])) >> 63))
 		n -= half
 	}
 	if s[lo] > c {
