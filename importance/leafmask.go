@@ -5,6 +5,7 @@ import (
 	"slices"
 
 	"splitledger/importance/forest"
+	"splitledger/importance/parallel"
 )
 
 // Leaf masks: a second way to find a row's step functions, for trees of at
@@ -113,8 +114,9 @@ func maskable(t *forest.Tree, vc []valueClasses, tooBig []bool) bool {
 	return leaves <= 64
 }
 
-// compileMasks builds the mask form of every qualifying tree.
-func compileMasks(e *forest.Ensemble, ns [][]nodeSplit, vc []valueClasses) *maskForest {
+// compileMasks builds the mask form of every qualifying tree (the tables on
+// at most workers goroutines; <= 0: all cores).
+func compileMasks(e *forest.Ensemble, ns [][]nodeSplit, vc []valueClasses, workers int) *maskForest {
 	nf := len(vc)
 	tooBig := make([]bool, nf)
 	ok := make([]bool, len(e.Trees))
@@ -168,20 +170,37 @@ func compileMasks(e *forest.Ensemble, ns [][]nodeSplit, vc []valueClasses) *mask
 		}
 	}
 	mf.table = make([]uint8, size)
-	for _, gr := range mf.groups {
-		nb := vc[gr.feat].nb
-		s := mf.slots[gr.feat]
-		col := mf.table[mf.tableOff[gr.feat]+int(gr.slot):]
-		cs := mf.cuts[gr.cuts : gr.cuts+gr.ncuts]
-		k := 0
-		for c := 0; c < nb; c++ {
-			for k < len(cs) && cs[k] <= int32(c) {
-				k++
-			}
-			col[c*s] = uint8(k)
-		}
-		col[nb*s] = uint8(gr.ncuts + 1)
+	// each feature's block row by row (writing it column by column would
+	// touch a new cache line at every byte), the features in parallel
+	bySlot := make([][]int32, nf) // per feature, its groups in slot order
+	for g, gr := range mf.groups {
+		bySlot[gr.feat] = append(bySlot[gr.feat], int32(g))
 	}
+	parallel.Chunks(nf, 1, workers, func(_, j, _ int) {
+		gs := bySlot[j]
+		if len(gs) == 0 {
+			return
+		}
+		nb, s := vc[j].nb, len(gs)
+		block := mf.table[mf.tableOff[j] : mf.tableOff[j]+(nb+1)*s]
+		next := make([]int32, s) // per slot: its cuts at or below the class
+		for c := 0; c < nb; c++ {
+			row := block[c*s : (c+1)*s]
+			for slot, g := range gs {
+				gr := &mf.groups[g]
+				cs := mf.cuts[gr.cuts : gr.cuts+gr.ncuts]
+				k := next[slot]
+				for int(k) < len(cs) && cs[k] <= int32(c) {
+					k++
+				}
+				next[slot] = k
+				row[slot] = uint8(k)
+			}
+		}
+		for slot, g := range gs {
+			block[nb*s+slot] = uint8(mf.groups[g].ncuts + 1)
+		}
+	})
 	return mf
 }
 
