@@ -10,8 +10,7 @@ import (
 type rowState struct {
 	x        []float64 // the row, by feature
 	cls      []int32   // the row's value class per feature
-	table    []int     // per feature: the row's row of the leaf-mask word-index table
-	touched  uint8     // keeps the table reads of rowTable from being dropped
+	wordIdx  []uint8   // the row's rows of the leaf-mask word-index tables (maskForest.rowOff)
 	margin   []float64 // per output class
 	tests    []float64 // per feature: tests on the row's paths
 	builders []*stepBuilder
@@ -63,7 +62,7 @@ func (r *run) newWorker() *worker {
 	rs := &rowState{
 		x:        make([]float64, nf),
 		cls:      make([]int32, nf),
-		table:    make([]int, nf),
+		wordIdx:  make([]uint8, r.masks.rowLen),
 		margin:   make([]float64, k),
 		tests:    make([]float64, nf),
 		builders: make([]*stepBuilder, nf),

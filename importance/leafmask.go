@@ -55,6 +55,12 @@ type maskForest struct {
 	table    []uint8
 	tableOff []int
 	slots    []int
+	// a row copies its rows of the tables into one buffer (rowState.wordIdx),
+	// feature f's at rowOff[f]; refs gives each group's byte there (col),
+	// and its first interval word, in the order of groups
+	rowOff []int
+	rowLen int
+	refs   []maskWordRef
 	walked   int // trees that do not qualify (walked instead)
 	// diffOff, markOff: run.diffOff, run.markOff (where each feature's
 	// difference array and touched-bin bits sit in a row's flat arrays)
@@ -89,6 +95,12 @@ type maskGroup struct {
 	words int32 // first interval in maskForest.words and .starts
 	cuts  int32 // first cut in maskForest.cuts
 	kill  int32 // first kill index in maskForest.kill
+}
+
+// maskWordRef is what the group-word pass needs of one group: where its
+// word index sits in the row's buffer and where its interval words start.
+type maskWordRef struct {
+	col, words int32
 }
 
 // maskable reports whether tree t can take the leaf-mask form: at most 64
@@ -163,11 +175,18 @@ func compileMasks(e *forest.Ensemble, ns [][]nodeSplit, vc []valueClasses, worke
 		}
 	}
 	size := 0
+	mf.rowOff = make([]int, nf)
 	for j := range vc {
 		mf.tableOff[j] = size
+		mf.rowOff[j] = mf.rowLen
 		if mf.slots[j] > 0 {
 			size += (vc[j].nb + 1) * mf.slots[j]
+			mf.rowLen += mf.slots[j]
 		}
+	}
+	mf.refs = make([]maskWordRef, len(mf.groups))
+	for g, gr := range mf.groups {
+		mf.refs[g] = maskWordRef{col: int32(mf.rowOff[gr.feat]) + gr.slot, words: gr.words}
 	}
 	mf.table = make([]uint8, size)
 	// each feature's block row by row (writing it column by column would
@@ -332,19 +351,15 @@ type maskScratch struct {
 	pre, suf [64]uint64
 }
 
-// rowTable points a row at its rows of the word-index tables.
+// rowTable copies the row's rows of the word-index tables into its buffer,
+// so the group-word pass reads each group's index at a fixed place.
 func (mf *maskForest) rowTable(rs *rowState) {
-	touched := uint8(0)
 	for j, s := range mf.slots {
-		off := mf.tableOff[j] + int(rs.cls[j])*s
-		rs.table[j] = off
-		// read the row's table lines now, all at once, rather than one at
-		// a time inside the dependent loads of the tree pass
-		for i := 0; i < s; i += 64 {
-			touched |= mf.table[off+i]
+		if s > 0 {
+			off := mf.tableOff[j] + int(rs.cls[j])*s
+			copy(rs.wordIdx[mf.rowOff[j]:mf.rowOff[j]+s], mf.table[off:off+s])
 		}
 	}
-	rs.touched = touched
 }
 
 // scoreMaskTree adds one mask tree's part of a row: the margin, path usage
@@ -353,10 +368,10 @@ func (mf *maskForest) scoreMaskTree(sc *maskScratch, rs *rowState, m *maskTree) 
 	// the arrays in locals: the stores below could alias them otherwise,
 	// and the compiler would reload every header each iteration
 	groups := mf.groups[m.groups0:m.groups1]
-	allWords, table, rowTable := mf.words, mf.table, rs.table
+	allWords := mf.words
 	ng := len(groups)
 	pre, suf := sc.pre[:ng], sc.suf[:ng]
-	acc := groupWords(groups, allWords, table, rowTable, pre, suf)
+	acc := groupWords(mf.refs[m.groups0:m.groups1], allWords, rs.wordIdx, pre, suf)
 	values := mf.leafValue[m.leaves0:]
 	ownLeaf := int(m.leaves0) + bits.TrailingZeros64(acc)
 	own := mf.leafValue[ownLeaf]
@@ -421,12 +436,11 @@ func (mf *maskForest) scoreMaskTree(sc *maskScratch, rs *rowState, m *maskTree) 
 // a register (inlined into the caller, the loop spilled to the stack).
 //
 //go:noinline
-func groupWords(groups []maskGroup, words []uint64, table []uint8, rowTable []int, pre, suf []uint64) uint64 {
+func groupWords(refs []maskWordRef, words []uint64, wordIdx []uint8, pre, suf []uint64) uint64 {
 	acc := ^uint64(0)
-	pre, suf = pre[:len(groups)], suf[:len(groups)]
-	for g := range groups {
-		gr := &groups[g]
-		word := words[int(gr.words)+int(table[rowTable[gr.feat]+int(gr.slot)])]
+	pre, suf = pre[:len(refs)], suf[:len(refs)]
+	for g, ref := range refs {
+		word := words[int(ref.words)+int(wordIdx[ref.col])]
 		pre[g] = acc
 		suf[g] = word
 		acc &= word
