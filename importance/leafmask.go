@@ -390,6 +390,9 @@ func (mf *maskForest) scoreMaskTree(sc *maskScratch, rs *rowState, m *maskTree) 
 	allStarts, allKill := mf.starts, mf.kill
 	tests, diffAll, markAll, missing := rs.tests, rs.diff, rs.mark, rs.missing
 	stride := len(rs.margin)
+	diffOff, markOff := mf.diffOff, mf.markOff
+	// the arrays are indexed at offsets rather than sliced per group:
+	// making five slices a group cost more than the work they frame
 	for _, pe := range mf.paths[p0:p1] {
 		g := int(pe >> 8)
 		gr := &groups[g]
@@ -397,36 +400,27 @@ func (mf *maskForest) scoreMaskTree(sc *maskScratch, rs *rowState, m *maskTree) 
 		tests[f] += float64(pe & 0xff) // scoreRow marks the builder used
 		others := pre[g] & suf[g]
 		n := int(gr.ncuts)
-		words := allWords[gr.words : int(gr.words)+n+2]
-		starts := allStarts[gr.words : int(gr.words)+n+1]
-		kill := allKill[gr.kill : gr.kill+64]
-		diff := diffAll[mf.diffOff[f]:mf.diffOff[f+1]]
-		mark := markAll[mf.markOff[f]:mf.markOff[f+1]]
+		wb, kb := int(gr.words), int(gr.kill)
+		db, mb := int(diffOff[f])+cl, int(markOff[f])
 		// one step per distinct leaf, left to right: each adds the change
 		// from the leaf before to every class from its interval's start
-		leaf := bits.TrailingZeros64(others & words[0])
+		leaf := bits.TrailingZeros64(others & allWords[wb])
 		d := values[leaf] - own
-		diff[cl] += d
-		mark[0] |= 1
-		if n == 1 { // a single cut, the commonest group: no loop to mispredict
-			bin := starts[1]
-			diff[int(bin)*stride+cl] += values[bits.TrailingZeros64(others&words[1])] - own - d
-			mark[bin>>6] |= 1 << (bin & 63)
-		} else {
-			for {
-				k := int(kill[leaf&63])
-				if k > n {
-					break
-				}
-				leaf = bits.TrailingZeros64(others & words[k])
-				next := values[leaf] - own
-				bin := starts[k]
-				diff[int(bin)*stride+cl] += next - d
-				mark[bin>>6] |= 1 << (bin & 63)
-				d = next
+		diffAll[db] += d
+		markAll[mb] |= 1
+		for {
+			k := int(allKill[kb+leaf&63])
+			if k > n {
+				break
 			}
+			leaf = bits.TrailingZeros64(others & allWords[wb+k])
+			next := values[leaf] - own
+			bin := int(allStarts[wb+k])
+			diffAll[db+bin*stride] += next - d
+			markAll[mb+bin>>6] |= 1 << (bin & 63)
+			d = next
 		}
-		missing[int(f)*stride+cl] += values[bits.TrailingZeros64(others&words[n+1])] - own
+		missing[int(f)*stride+cl] += values[bits.TrailingZeros64(others&allWords[wb+n+1])] - own
 	}
 }
 
