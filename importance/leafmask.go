@@ -62,9 +62,6 @@ type maskForest struct {
 	rowLen int
 	refs   []maskWordRef
 	walked   int // trees that do not qualify (walked instead)
-	// diffOff, markOff: run.diffOff, run.markOff (where each feature's
-	// difference array and touched-bin bits sit in a row's flat arrays)
-	diffOff, markOff []int32
 }
 
 // leafMasks turns the leaf-mask form on, and maskOnly (when set) limits it
@@ -95,6 +92,11 @@ type maskGroup struct {
 	words int32 // first interval in maskForest.words and .starts
 	cuts  int32 // first cut in maskForest.cuts
 	kill  int32 // first kill index in maskForest.kill
+	// where the pass writes the feature's pieces for the tree's output
+	// class in a row's flat arrays: its difference array (rowState.diff),
+	// touched-bin bits (.mark) and missing-class change (.missing); set by
+	// placeRow
+	diff, mark, miss int32
 }
 
 // maskWordRef is what the group-word pass needs of one group: where its
@@ -346,6 +348,23 @@ func (mf *maskForest) add(ti int, t *forest.Tree, ns []nodeSplit, vc []valueClas
 	mf.trees[ti] = hdr
 }
 
+// placeRow records in every group where its feature's pieces go in a
+// row's flat arrays: feature f's difference array starts at diffOff[f] and
+// its touched-bin bits at markOff[f], k values per class.
+func (mf *maskForest) placeRow(diffOff, markOff []int32, k int) {
+	for _, m := range mf.trees {
+		if m.groups0 < 0 {
+			continue
+		}
+		for g := m.groups0; g < m.groups1; g++ {
+			gr := &mf.groups[g]
+			gr.diff = diffOff[gr.feat] + m.class
+			gr.mark = markOff[gr.feat]
+			gr.miss = gr.feat*int32(k) + m.class
+		}
+	}
+}
+
 // maskScratch is one worker's space for mask evaluation.
 type maskScratch struct {
 	pre, suf [64]uint64
@@ -386,11 +405,9 @@ func (mf *maskForest) scoreMaskTree(sc *maskScratch, rs *rowState, m *maskTree) 
 		suf[g] = acc
 		acc &= word
 	}
-	cl := int(m.class)
 	allStarts, allKill := mf.starts, mf.kill
 	tests, diffAll, markAll, missing := rs.tests, rs.diff, rs.mark, rs.missing
 	stride := len(rs.margin)
-	diffOff, markOff := mf.diffOff, mf.markOff
 	// the arrays are indexed at offsets rather than sliced per group:
 	// making five slices a group cost more than the work they frame
 	for _, pe := range mf.paths[p0:p1] {
@@ -401,7 +418,7 @@ func (mf *maskForest) scoreMaskTree(sc *maskScratch, rs *rowState, m *maskTree) 
 		others := pre[g] & suf[g]
 		n := int(gr.ncuts)
 		wb, kb := int(gr.words), int(gr.kill)
-		db, mb := int(diffOff[f])+cl, int(markOff[f])
+		db, mb := int(gr.diff), int(gr.mark)
 		// one step per distinct leaf, left to right: each adds the change
 		// from the leaf before to every class from its interval's start
 		leaf := bits.TrailingZeros64(others & allWords[wb])
@@ -420,7 +437,7 @@ func (mf *maskForest) scoreMaskTree(sc *maskScratch, rs *rowState, m *maskTree) 
 			markAll[mb+bin>>6] |= 1 << (bin & 63)
 			d = next
 		}
-		missing[int(f)*stride+cl] += values[bits.TrailingZeros64(others&allWords[wb+n+1])] - own
+		missing[gr.miss] += values[bits.TrailingZeros64(others&allWords[wb+n+1])] - own
 	}
 }
 

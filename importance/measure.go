@@ -382,7 +382,7 @@ func newRun(e *forest.Ensemble, f *frame.Frame, cfg Config, metric Metric, k int
 		r.diffOff[j+1] = r.diffOff[j] + int32(nd)
 		r.markOff[j+1] = r.markOff[j] + int32(nm)
 	}
-	r.masks.diffOff, r.masks.markOff = r.diffOff, r.markOff
+	r.masks.placeRow(r.diffOff, r.markOff, e.NumClass)
 	r.init = make([]pathState, nf)
 	for j := range r.vc {
 		r.init[j] = pathState{lo: 0, hi: int32(r.vc[j].nb), m: true, z: r.vc[j].zeroMode}
