@@ -421,7 +421,7 @@ func (mf *maskForest) scoreMaskTree(sc *maskScratch, rs *rowState, m *maskTree) 
 		db, mb := int(gr.diff), int(gr.mark)
 		// one step per distinct leaf, left to right: each adds the change
 		// from the leaf before to every class from its interval's start
-		leaf := bits.TrailingZeros64(others & allWords[wb])
+		leaf := bits.TrailingZeros64(others) // interval 0's word is all ones: no node sends it right
 		d := values[leaf] - own
 		diffAll[db] += d
 		markAll[mb] |= 1
