@@ -1,6 +1,8 @@
 package importance
 
 import (
+	"math/bits"
+
 	"splitledger/importance/forest"
 	"splitledger/importance/metrics"
 	"splitledger/importance/parallel"
@@ -20,6 +22,17 @@ type rowState struct {
 	diff    []float64
 	mark    []uint64
 	missing []float64
+	// shuffled metrics (one output class): the mask pass writes each step
+	// at the classes keepPerturbed will ask (the median's, then each
+	// shuffle's) instead of over all classes. Per numeric feature, qmark
+	// has a bit per asked class below nb (laid out as mark) and qrank the
+	// number of bits in the words before each; qacc (qw slots a feature)
+	// holds the changes by asked class in difference form (slot p: from
+	// the p-th smallest on), its last slot the missing class's change.
+	qmark []uint64
+	qrank []int32
+	qacc  []float64
+	qw    int
 }
 
 // worker holds one goroutine's scratch space.
@@ -42,6 +55,7 @@ type worker struct {
 	donors      [][]int32 // shuffled metrics: the classes of each shuffle's donor row
 	queries     []int32   // shuffled metrics: the classes asked of one step function
 	answers     []float64 // and its values there
+	run         []float64 // keepPerturbed: running sums over the asked classes
 	ndcg        metrics.NDCGScratch
 	groupS      []float64
 	groupL      []float64
@@ -58,6 +72,7 @@ func (r *run) newWorker() *worker {
 		state:    make([]pathState, nf),
 		loss:     newRowLoss(r.metric, r.e),
 		answers:  make([]float64, 1+len(r.perms)),
+		run:      make([]float64, len(r.perms)+3),
 	}
 	rs := &rowState{
 		x:        make([]float64, nf),
@@ -69,6 +84,12 @@ func (r *run) newWorker() *worker {
 		diff:     make([]float64, r.diffOff[nf]),
 		mark:     make([]uint64, r.markOff[nf]),
 		missing:  make([]float64, nf*k),
+	}
+	if !r.metric.additive() {
+		rs.qw = len(r.perms) + 3 // up to 1+R asked classes, one past them, the missing slot
+		rs.qmark = make([]uint64, r.markOff[nf])
+		rs.qrank = make([]int32, r.markOff[nf])
+		rs.qacc = make([]float64, nf*rs.qw)
 	}
 	for j := range rs.builders {
 		// views into the row's flat arrays, which the mask pass indexes
@@ -174,19 +195,16 @@ func (r *run) keepPerturbed(w *worker, rs *rowState, row, local int) {
 	np := r.nPert()
 	w.chunkBase[local] = rs.margin[0]
 	base := local * nf * np
-	// each shuffle's donor row, whose classes the row receives
-	donors := w.donors[:0]
-	for _, p := range r.perms {
-		donors = append(donors, r.rowClass[int(p[row])*nf:int(p[row]+1)*nf])
-	}
-	w.donors = donors
+	donors := w.donors // askClasses found them
+	qw := rs.qw
 	for j := 0; j < nf; j++ {
 		s := w.chunkScores[base+j*np : base+(j+1)*np]
 		b := rs.builders[j]
-		if !b.used {
+		if !b.used && rs.tests[j] == 0 { // no path tests it
 			for i := range s {
 				s[i] = rs.margin[0]
 			}
+			r.clearAsked(rs, j)
 			continue
 		}
 		sf := &b.sf
@@ -200,14 +218,45 @@ func (r *run) keepPerturbed(w *worker, rs *rowState, row, local int) {
 		}
 		w.queries = qs
 		vals := w.answers[:len(qs)]
-		if vc.categorical {
+		miss := 0.0
+		switch {
+		case !b.used: // no walked tree wrote steps
+			clear(vals)
+		case vc.categorical:
 			for i, c := range qs {
 				vals[i] = sf.at1(vc, int(c))
 			}
-		} else {
+			miss = sf.at1(vc, vc.missingClass())
+		default:
 			b.evalQueries(qs, vals)
+			miss = sf.missing[0]
 		}
-		s[0] = m + sf.at1(vc, vc.missingClass())
+		if !vc.categorical {
+			// the mask trees' part: running sums over the asked classes
+			// in ascending order, read at each one's rank
+			acc := rs.qacc[j*qw : (j+1)*qw]
+			mo := int(r.markOff[j])
+			nb := int32(vc.nb)
+			run := w.run[:qw]
+			c := 0.0
+			for p := range run {
+				c += acc[p]
+				run[p] = c
+			}
+			for i, q := range qs {
+				switch {
+				case q < nb:
+					wi := mo + int(q>>6)
+					vals[i] += run[int(rs.qrank[wi])+bits.OnesCount64(rs.qmark[wi]&(1<<(q&63)-1))]
+				case q == nb:
+					vals[i] += acc[qw-1]
+				}
+			}
+			miss += acc[qw-1]
+			clear(acc)
+			r.clearAsked(rs, j)
+		}
+		s[0] = m + miss
 		for i, c := range qs {
 			// the row's own class changes nothing, exactly (the step
 			// sums may carry rounding there)
@@ -229,6 +278,47 @@ func (r *run) keepPerturbed(w *worker, rs *rowState, row, local int) {
 	}
 }
 
+// askClasses sets, before a row's pass, the classes keepPerturbed will
+// ask of each numeric feature (rowState.qmark, .qrank), and finds each
+// shuffle's donor row (worker.donors).
+func (r *run) askClasses(w *worker, rs *rowState, row int) {
+	nf := len(rs.x)
+	donors := w.donors[:0]
+	for _, p := range r.perms {
+		donors = append(donors, r.rowClass[int(p[row])*nf:int(p[row]+1)*nf])
+	}
+	w.donors = donors
+	for j := range r.vc {
+		vc := &r.vc[j]
+		if vc.categorical {
+			continue
+		}
+		nb := int32(vc.nb)
+		q := rs.qmark[r.markOff[j]:r.markOff[j+1]]
+		if c := int32(r.medianC[j]); c < nb {
+			q[c>>6] |= 1 << (c & 63)
+		}
+		for _, d := range donors {
+			if c := d[j]; c < nb {
+				q[c>>6] |= 1 << (c & 63)
+			}
+		}
+		rank := rs.qrank[r.markOff[j]:r.markOff[j+1]]
+		n := int32(0)
+		for wi, word := range q {
+			rank[wi] = n
+			n += int32(bits.OnesCount64(word))
+		}
+	}
+}
+
+// clearAsked clears feature j's asked-class bits for the next row.
+func (r *run) clearAsked(rs *rowState, j int) {
+	if !r.vc[j].categorical {
+		clear(rs.qmark[r.markOff[j]:r.markOff[j+1]])
+	}
+}
+
 // scoreRow runs one row through every tree: its margin, path usage and
 // every feature's step function (only features met on the row's own paths
 // can move its leaves). Leaf-mask trees go first, then the walked ones.
@@ -246,6 +336,21 @@ func (r *run) scoreRow(w *worker, rs *rowState, row int) {
 	}
 	copy(rs.margin, e.BaseMargin)
 	r.masks.rowTable(rs)
+	if !r.metric.additive() {
+		// the mask trees write their steps at the asked classes; the
+		// walked trees write step functions, which keepPerturbed asks too
+		// (b.used says whether they wrote any)
+		r.askClasses(w, rs, row)
+		for ti := range r.masks.trees {
+			if m := &r.masks.trees[ti]; m.groups0 >= 0 {
+				r.masks.scoreMaskQueries(&w.masks, rs, m)
+			}
+		}
+		if r.masks.walked > 0 {
+			r.walkTrees(w, rs)
+		}
+		return
+	}
 	for ti := range r.masks.trees {
 		if m := &r.masks.trees[ti]; m.groups0 >= 0 {
 			r.masks.scoreMaskTree(&w.masks, rs, m)
@@ -257,9 +362,6 @@ func (r *run) scoreRow(w *worker, rs *rowState, row int) {
 	for j, b := range rs.builders {
 		// a feature on a mask tree's path wrote steps (maybe all zero)
 		b.used = b.used || rs.tests[j] > 0
-	}
-	if !r.metric.additive() {
-		return // keepPerturbed asks the builders for the classes it needs
 	}
 	for _, b := range rs.builders {
 		if b.used {

@@ -441,6 +441,68 @@ func (mf *maskForest) scoreMaskTree(sc *maskScratch, rs *rowState, m *maskTree) 
 	}
 }
 
+// scoreMaskQueries is scoreMaskTree for the shuffled metrics (one output
+// class): a step adds its change at the asked classes from its start on
+// (rowState.qacc, at the number of asked classes below the start: a count
+// of bits, rowState.qmark and .qrank) rather than over all classes, so
+// nothing is left to sum over the classes afterwards.
+func (mf *maskForest) scoreMaskQueries(sc *maskScratch, rs *rowState, m *maskTree) {
+	// the arrays in locals: the stores below could alias them otherwise,
+	// and the compiler would reload every header each iteration
+	groups := mf.groups[m.groups0:m.groups1]
+	allWords := mf.words
+	ng := len(groups)
+	pre, suf := sc.pre[:ng], sc.suf[:ng]
+	acc := groupWords(mf.refs[m.groups0:m.groups1], allWords, rs.wordIdx, pre, suf)
+	values := mf.leafValue[m.leaves0:]
+	ownLeaf := int(m.leaves0) + bits.TrailingZeros64(acc)
+	own := mf.leafValue[ownLeaf]
+	rs.margin[0] += own
+	p0, p1 := mf.leafPath[ownLeaf], mf.leafPath[ownLeaf+1]
+	if p0 == p1 {
+		return
+	}
+	acc = ^uint64(0)
+	for g := ng - 1; g >= 0; g-- {
+		word := suf[g]
+		suf[g] = acc
+		acc &= word
+	}
+	allStarts, allKill := mf.starts, mf.kill
+	tests, qmark, qrank, qacc := rs.tests, rs.qmark, rs.qrank, rs.qacc
+	qw := rs.qw
+	// the arrays are indexed at offsets rather than sliced per group:
+	// making five slices a group cost more than the work they frame
+	for _, pe := range mf.paths[p0:p1] {
+		g := int(pe >> 8)
+		gr := &groups[g]
+		f := gr.feat
+		tests[f] += float64(pe & 0xff)
+		others := pre[g] & suf[g]
+		n := int(gr.ncuts)
+		wb, kb := int(gr.words), int(gr.kill)
+		ab, mb := int(f)*qw, int(gr.mark)
+		// one step per distinct leaf, left to right: each adds the change
+		// from the leaf before to every class from its interval's start
+		leaf := bits.TrailingZeros64(others) // interval 0's word is all ones: no node sends it right
+		d := values[leaf] - own
+		qacc[ab] += d
+		for {
+			k := int(allKill[kb+leaf&63])
+			if k > n {
+				break
+			}
+			leaf = bits.TrailingZeros64(others & allWords[wb+k])
+			next := values[leaf] - own
+			bin := int(allStarts[wb+k])
+			wi := mb + bin>>6
+			qacc[ab+int(qrank[wi])+bits.OnesCount64(qmark[wi]&(1<<(bin&63)-1))] += next - d
+			d = next
+		}
+		qacc[ab+qw-1] += values[bits.TrailingZeros64(others&allWords[wb+n+1])] - own
+	}
+}
+
 // groupWords sets, for one row and tree, suf[g] to group g's word and pre[g]
 // to the AND of the words before it, and returns the AND of all. A
 // function of its own, not inlined, so that its loop keeps every value in
