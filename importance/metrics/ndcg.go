@@ -91,7 +91,6 @@ func CheckRelevance(labels []float64) error {
 type NDCGScratch struct {
 	items []rankedGain
 	gains []float64
-	top   []float64
 }
 
 // rankedGain is one item of a query group: its score (NaN replaced by
@@ -197,6 +196,9 @@ func DCGGains(scores, gains []float64, k int, scratch *NDCGScratch) float64 {
 	if scratch == nil {
 		scratch = new(NDCGScratch)
 	}
+	if k < n {
+		return dcgTop(scores, gains, k, scratch)
+	}
 	items := slices.Grow(scratch.items[:0], n)[:n]
 	for i, s := range scores {
 		if s != s {
@@ -204,41 +206,10 @@ func DCGGains(scores, gains []float64, k int, scratch *NDCGScratch) float64 {
 		}
 		items[i] = rankedGain{score: s, gain: gains[i]}
 	}
-	// Only the items scoring at or above the k-th largest score can reach
-	// the first k positions (with every item tied at that score, whose
-	// gains are averaged): find that score, keep those items, sort them.
-	if k < n {
-		top := slices.Grow(scratch.top[:0], k)[:0]
-		for _, it := range items {
-			s := it.score
-			if len(top) == k {
-				if !(s > top[k-1]) {
-					continue
-				}
-				top = top[:k-1]
-			}
-			i := len(top)
-			top = append(top, s)
-			for ; i > 0 && top[i-1] < s; i-- {
-				top[i] = top[i-1]
-			}
-			top[i] = s
-		}
-		scratch.top = top
-		cut := top[k-1]
-		kept := items[:0]
-		for _, it := range items {
-			if it.score >= cut {
-				kept = append(kept, it)
-			}
-		}
-		items = kept
-	}
 	scratch.items = items
-	n = len(items)
 	sortDescending(items)
 	var dcg float64
-	for pos := 0; pos < k; {
+	for pos := 0; pos < n; {
 		end := pos + 1
 		sum := items[pos].gain
 		for end < n && items[end].score == items[pos].score {
@@ -246,13 +217,72 @@ func DCGGains(scores, gains []float64, k int, scratch *NDCGScratch) float64 {
 			end++
 		}
 		var d float64
-		for j := pos; j < end && j < k; j++ {
+		for j := pos; j < end; j++ {
 			d += discount(j)
 		}
 		dcg += sum / float64(end-pos) * d
 		pos = end
 	}
 	return dcg
+}
+
+// dcgTop is DCGGains for k below the number of items. Only the items
+// scoring at or above the k-th largest score reach the first k positions:
+// the k best are kept in order as they come, and the items tied with the
+// last of them (some may have been left out) share the positions from
+// theirs on, with their gains averaged.
+func dcgTop(scores, gains []float64, k int, scratch *NDCGScratch) float64 {
+	top := slices.Grow(scratch.items[:0], k)[:0]
+	for i, s := range scores {
+		if s != s {
+			s = math.Inf(-1)
+		}
+		if len(top) == k {
+			if !(s > top[k-1].score) {
+				continue
+			}
+			top = top[:k-1]
+		}
+		j := len(top)
+		top = append(top, rankedGain{})
+		for ; j > 0 && top[j-1].score < s; j-- {
+			top[j] = top[j-1]
+		}
+		top[j] = rankedGain{score: s, gain: gains[i]}
+	}
+	scratch.items = top
+	cut := top[k-1].score
+	var dcg float64
+	pos := 0
+	for pos < k && top[pos].score > cut {
+		end := pos + 1
+		sum := top[pos].gain
+		for top[end].score == top[pos].score { // top[k-1] == cut stops it
+			sum += top[end].gain
+			end++
+		}
+		var d float64
+		for j := pos; j < end; j++ {
+			d += discount(j)
+		}
+		dcg += sum / float64(end-pos) * d
+		pos = end
+	}
+	tieSum, tieN := 0.0, 0
+	for i, s := range scores {
+		if s != s {
+			s = math.Inf(-1)
+		}
+		if s == cut {
+			tieSum += gains[i]
+			tieN++
+		}
+	}
+	var d float64
+	for j := pos; j < k; j++ { // the tie reaches position k or beyond
+		d += discount(j)
+	}
+	return dcg + tieSum/float64(tieN)*d
 }
 
 // IdealDCG returns the DCG at k of the best ordering of labels (gains in
