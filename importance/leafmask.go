@@ -62,6 +62,8 @@ type maskForest struct {
 	rowLen int
 	refs   []maskWordRef
 	walked   int // trees that do not qualify (walked instead)
+	// per group: its column in its feature's table, and its first cut
+	slotOf, cutsAt []int32
 }
 
 // leafMasks turns the leaf-mask form on, and maskOnly (when set) limits it
@@ -85,18 +87,18 @@ type maskTree struct {
 }
 
 // maskGroup is one feature's nodes in one tree.
+// Its kill indexes are maskForest.kill[64*g:64*(g+1)] (g: its index in
+// groups); its table column and cuts are kept apart (slotOf, cutsAt), as
+// only the set-up reads them.
 type maskGroup struct {
-	feat  int32
-	slot  int32 // column in the feature's table
-	ncuts int32
 	words int32 // first interval in maskForest.words and .starts
-	cuts  int32 // first cut in maskForest.cuts
-	kill  int32 // first kill index in maskForest.kill
+	feat  int32
 	// where the pass writes the feature's pieces for the tree's output
 	// class in a row's flat arrays: its difference array (rowState.diff),
 	// touched-bin bits (.mark) and missing-class change (.missing); set by
 	// placeRow
 	diff, mark, miss int32
+	ncuts            uint8 // at most 63: a tree of at most 64 leaves
 }
 
 // maskWordRef is what the group-word pass needs of one group: where its
@@ -188,7 +190,7 @@ func compileMasks(e *forest.Ensemble, ns [][]nodeSplit, vc []valueClasses, worke
 	}
 	mf.refs = make([]maskWordRef, len(mf.groups))
 	for g, gr := range mf.groups {
-		mf.refs[g] = maskWordRef{col: int32(mf.rowOff[gr.feat]) + gr.slot, words: gr.words}
+		mf.refs[g] = maskWordRef{col: int32(mf.rowOff[gr.feat]) + mf.slotOf[g], words: gr.words}
 	}
 	mf.table = make([]uint8, size)
 	// each feature's block row by row (writing it column by column would
@@ -209,7 +211,7 @@ func compileMasks(e *forest.Ensemble, ns [][]nodeSplit, vc []valueClasses, worke
 			row := block[c*s : (c+1)*s]
 			for slot, g := range gs {
 				gr := &mf.groups[g]
-				cs := mf.cuts[gr.cuts : gr.cuts+gr.ncuts]
+				cs := mf.cuts[mf.cutsAt[g] : mf.cutsAt[g]+int32(gr.ncuts)]
 				k := next[slot]
 				for int(k) < len(cs) && cs[k] <= int32(c) {
 					k++
@@ -270,8 +272,9 @@ func (mf *maskForest) add(ti int, t *forest.Tree, ns []nodeSplit, vc []valueClas
 		}
 		slices.Sort(cs)
 		cs = slices.Compact(cs)
-		gr := maskGroup{feat: feat, slot: int32(mf.slots[feat]), ncuts: int32(len(cs)),
-			words: int32(len(mf.words)), cuts: int32(len(mf.cuts)), kill: int32(len(mf.kill))}
+		gr := maskGroup{feat: feat, ncuts: uint8(len(cs)), words: int32(len(mf.words))}
+		mf.slotOf = append(mf.slotOf, int32(mf.slots[feat]))
+		mf.cutsAt = append(mf.cutsAt, int32(len(mf.cuts)))
 		mf.slots[feat]++ // the running count: the table width once all trees are in
 		mf.cuts = append(mf.cuts, cs...)
 		// interval k holds the classes in [cs[k-1], cs[k]): the nodes with
@@ -406,6 +409,7 @@ func (mf *maskForest) scoreMaskTree(sc *maskScratch, rs *rowState, m *maskTree) 
 		acc &= word
 	}
 	allStarts, allKill := mf.starts, mf.kill
+	g0 := int(m.groups0)
 	tests, diffAll, markAll, missing := rs.tests, rs.diff, rs.mark, rs.missing
 	stride := len(rs.margin)
 	// the arrays are indexed at offsets rather than sliced per group:
@@ -417,7 +421,7 @@ func (mf *maskForest) scoreMaskTree(sc *maskScratch, rs *rowState, m *maskTree) 
 		tests[f] += float64(pe & 0xff) // scoreRow marks the builder used
 		others := pre[g] & suf[g]
 		n := int(gr.ncuts)
-		wb, kb := int(gr.words), int(gr.kill)
+		wb, kb := int(gr.words), (g0+g)*64
 		db, mb := int(gr.diff), int(gr.mark)
 		// one step per distinct leaf, left to right: each adds the change
 		// from the leaf before to every class from its interval's start
@@ -469,6 +473,7 @@ func (mf *maskForest) scoreMaskQueries(sc *maskScratch, rs *rowState, m *maskTre
 		acc &= word
 	}
 	allStarts, allKill := mf.starts, mf.kill
+	g0 := int(m.groups0)
 	tests, qmark, qrank, qacc := rs.tests, rs.qmark, rs.qrank, rs.qacc
 	qw := rs.qw
 	// the arrays are indexed at offsets rather than sliced per group:
@@ -480,7 +485,7 @@ func (mf *maskForest) scoreMaskQueries(sc *maskScratch, rs *rowState, m *maskTre
 		tests[f] += float64(pe & 0xff)
 		others := pre[g] & suf[g]
 		n := int(gr.ncuts)
-		wb, kb := int(gr.words), int(gr.kill)
+		wb, kb := int(gr.words), (g0+g)*64
 		ab, mb := int(f)*qw, int(gr.mark)
 		// one step per distinct leaf, left to right: each adds the change
 		// from the leaf before to every class from its interval's start
