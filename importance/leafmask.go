@@ -402,12 +402,6 @@ func (mf *maskForest) scoreMaskTree(sc *maskScratch, rs *rowState, m *maskTree) 
 	if p0 == p1 {
 		return
 	}
-	acc = ^uint64(0)
-	for g := ng - 1; g >= 0; g-- {
-		word := suf[g]
-		suf[g] = acc
-		acc &= word
-	}
 	allStarts, allKill := mf.starts, mf.kill
 	g0 := int(m.groups0)
 	tests, diffAll, markAll, missing := rs.tests, rs.diff, rs.mark, rs.missing
@@ -461,16 +455,10 @@ func (mf *maskForest) scoreMaskQueries(sc *maskScratch, rs *rowState, m *maskTre
 	values := mf.leafValue[m.leaves0:]
 	ownLeaf := int(m.leaves0) + bits.TrailingZeros64(acc)
 	own := mf.leafValue[ownLeaf]
-	rs.margin[0] += own
+	rs.margin[m.class] += own
 	p0, p1 := mf.leafPath[ownLeaf], mf.leafPath[ownLeaf+1]
 	if p0 == p1 {
 		return
-	}
-	acc = ^uint64(0)
-	for g := ng - 1; g >= 0; g-- {
-		word := suf[g]
-		suf[g] = acc
-		acc &= word
 	}
 	allStarts, allKill := mf.starts, mf.kill
 	g0 := int(m.groups0)
@@ -508,10 +496,11 @@ func (mf *maskForest) scoreMaskQueries(sc *maskScratch, rs *rowState, m *maskTre
 	}
 }
 
-// groupWords sets, for one row and tree, suf[g] to group g's word and pre[g]
-// to the AND of the words before it, and returns the AND of all. A
-// function of its own, not inlined, so that its loop keeps every value in
-// a register (inlined into the caller, the loop spilled to the stack).
+// groupWords sets, for one row and tree, pre[g] to the AND of the words of
+// the groups before group g and suf[g] to that of the groups after it, and
+// returns the AND of all. A function of its own, not inlined, so that its
+// loops keep every value in a register (inlined into the caller, they
+// spilled to the stack).
 //
 //go:noinline
 func groupWords(refs []maskWordRef, words []uint64, wordIdx []uint8, pre, suf []uint64) uint64 {
@@ -522,6 +511,12 @@ func groupWords(refs []maskWordRef, words []uint64, wordIdx []uint8, pre, suf []
 		pre[g] = acc
 		suf[g] = word
 		acc &= word
+	}
+	after := ^uint64(0)
+	for g := len(suf) - 1; g >= 0; g-- {
+		word := suf[g]
+		suf[g] = after
+		after &= word
 	}
 	return acc
 }
