@@ -29,15 +29,18 @@ type rowState struct {
 	// number of bits in the words before each; qacc (qw slots a feature)
 	// holds the changes by asked class in difference form (slot p: from
 	// the p-th smallest on), its last slot the missing class's change.
-	qmark []uint64
-	qrank []int32
-	qacc  []float64
-	qw    int
+	qmark  []uint64
+	qrank  []int32
+	qacc   []float64
+	qw     int
+	donors [][]int32 // the classes of each shuffle's donor row
 }
 
 // worker holds one goroutine's scratch space.
 type worker struct {
 	row      *rowState
+	block    []*rowState // shuffled metrics: the rows of one block (maskBlock)
+	rows     []int32     // shuffled metrics: the chunk's rows in unit order
 	zero     []float64
 	delta    []float64
 	pathSeen []int32 // stamp per feature: tree index + 1 when met on the path
@@ -52,7 +55,6 @@ type worker struct {
 	// layout [row][feature][0:miss 1:freeze 2..: repeats] (K=1 models)
 	chunkScores []float64
 	chunkBase   []float64
-	donors      [][]int32 // shuffled metrics: the classes of each shuffle's donor row
 	queries     []int32   // shuffled metrics: the classes asked of one step function
 	answers     []float64 // and its values there
 	run         []float64 // keepPerturbed: running sums over the asked classes
@@ -74,6 +76,23 @@ func (r *run) newWorker() *worker {
 		answers:  make([]float64, 1+len(r.perms)),
 		run:      make([]float64, len(r.perms)+3),
 	}
+	rs := r.newRowState()
+	if !r.metric.additive() {
+		w.block = make([]*rowState, maskBlock)
+		w.block[0] = rs
+		for i := 1; i < maskBlock; i++ {
+			w.block[i] = r.newRowState()
+		}
+	}
+	w.row = rs
+	w.walker = freeWalker{e: r.e, xgb: r.e.Rule == forest.LessThanFloat32}
+	return w
+}
+
+// newRowState allocates one row's state.
+func (r *run) newRowState() *rowState {
+	nf := r.e.NumFeatures()
+	k := r.e.NumClass
 	rs := &rowState{
 		x:        make([]float64, nf),
 		cls:      make([]int32, nf),
@@ -97,10 +116,14 @@ func (r *run) newWorker() *worker {
 		rs.builders[j] = newStepBuilder(&r.vc[j], k, rs.diff[r.diffOff[j]:r.diffOff[j+1]],
 			rs.mark[r.markOff[j]:r.markOff[j+1]], rs.missing[j*k:(j+1)*k])
 	}
-	w.row = rs
-	w.walker = freeWalker{e: r.e, xgb: r.e.Rule == forest.LessThanFloat32}
-	return w
+	return rs
 }
+
+// maskBlock is the number of rows the shuffled metrics' pass takes through
+// each mask tree in turn, so that a tree's records are read once for all of
+// them; their states (a few kB each, plus their word-index rows) stay in
+// cache from tree to tree.
+const maskBlock = 16
 
 // compute fills r.sums: one pass over the rows, chunk by chunk.
 func (r *run) compute() {
@@ -124,66 +147,107 @@ func (r *run) compute() {
 // perturbations per feature for shuffled metrics: missing, freeze, repeats
 func (r *run) nPert() int { return 2 + len(r.perms) }
 
-// chunk processes units [u0, u1) row by row; for NDCG each unit's terms
-// follow its last row, while its perturbed margins are still in cache.
+// chunk processes units [u0, u1): row by row for the additive metrics, in
+// blocks of rows for the shuffled ones (chunkShuffled).
 func (r *run) chunk(w *worker, u0, u1 int) {
+	if !r.metric.additive() {
+		r.chunkShuffled(w, u0, u1)
+		return
+	}
 	f, lay := r.f, &r.lay
-	nf := r.e.NumFeatures()
-	shuffled := !r.metric.additive()
-	np := r.nPert()
-	rows := 0
-	for u := u0; u < u1; u++ {
-		rows += len(r.units[u])
-	}
-	if shuffled {
-		if cap(w.chunkScores) < rows*nf*np {
-			w.chunkScores = make([]float64, rows*nf*np)
-			w.chunkBase = make([]float64, rows)
-		}
-		w.chunkScores = w.chunkScores[:rows*nf*np]
-		w.chunkBase = w.chunkBase[:rows]
-	}
 	rs := w.row
-	local := 0 // the row's index in the chunk
 	for u := u0; u < u1; u++ {
 		out := r.sums[u*lay.cols : (u+1)*lay.cols]
-		first := local
 		for _, row := range r.units[u] {
 			r.scoreRow(w, rs, int(row))
-			wt := 1.0
-			if f.Weight != nil {
-				wt = f.Weight[row]
-			}
 			y := 0.0
 			if f.Label != nil {
 				y = f.Label[row]
 			}
-			out[lay.denRows] += wt
-			for j := 0; j < nf; j++ {
-				if rs.tests[j] > 0 { // some path tests it
-					out[lay.path+j] += wt
+			wt := r.rowTotals(rs, int(row), out)
+			r.additiveRow(w, rs, out, wt, y)
+		}
+	}
+}
+
+// rowTotals adds one row's weight, path usage and |SHAP| to its unit's
+// sums, and returns the row's weight.
+func (r *run) rowTotals(rs *rowState, row int, out []float64) float64 {
+	lay := &r.lay
+	nf := len(rs.tests)
+	wt := 1.0
+	if r.f.Weight != nil {
+		wt = r.f.Weight[row]
+	}
+	out[lay.denRows] += wt
+	for j := 0; j < nf; j++ {
+		if rs.tests[j] > 0 { // some path tests it
+			out[lay.path+j] += wt
+		}
+		out[lay.tests+j] += wt * rs.tests[j]
+	}
+	if r.shapAt != nil && r.shapAt[row] >= 0 {
+		abs := r.shapAbs[r.shapAt[row] : int(r.shapAt[row])+nf]
+		out[lay.denSHAP] += wt
+		for j := 0; j < nf; j++ {
+			out[lay.shap+j] += wt * abs[j]
+		}
+	}
+	return wt
+}
+
+// chunkShuffled processes units [u0, u1) for the shuffled metrics. The
+// chunk's rows, in unit order, go in blocks of maskBlock: every mask tree
+// takes the whole block in turn (scoreMaskQueries), then each row its
+// walked trees and keepPerturbed. For NDCG a unit's terms follow its last
+// row, while its perturbed margins are still in cache.
+func (r *run) chunkShuffled(w *worker, u0, u1 int) {
+	lay := &r.lay
+	nf := r.e.NumFeatures()
+	np := r.nPert()
+	rows := w.rows[:0]
+	for u := u0; u < u1; u++ {
+		rows = append(rows, r.units[u]...)
+	}
+	w.rows = rows
+	if cap(w.chunkScores) < len(rows)*nf*np {
+		w.chunkScores = make([]float64, len(rows)*nf*np)
+		w.chunkBase = make([]float64, len(rows))
+	}
+	w.chunkScores = w.chunkScores[:len(rows)*nf*np]
+	w.chunkBase = w.chunkBase[:len(rows)]
+	u, first := u0, 0 // the unit of the next row, and its first local row
+	for b0 := 0; b0 < len(rows); b0 += maskBlock {
+		blk := rows[b0:min(b0+maskBlock, len(rows))]
+		for i, row := range blk {
+			r.startRow(w.block[i], int(row))
+			r.askClasses(w.block[i], int(row))
+		}
+		for ti := range r.masks.trees {
+			if m := &r.masks.trees[ti]; m.groups0 >= 0 {
+				for i := range blk {
+					r.masks.scoreMaskQueries(&w.masks, w.block[i], m)
 				}
-				out[lay.tests+j] += wt * rs.tests[j]
 			}
-			if r.shapAt != nil && r.shapAt[row] >= 0 {
-				abs := r.shapAbs[r.shapAt[row] : int(r.shapAt[row])+nf]
-				out[lay.denSHAP] += wt
-				for j := 0; j < nf; j++ {
-					out[lay.shap+j] += wt * abs[j]
-				}
+		}
+		for i, row := range blk {
+			rs := w.block[i]
+			if r.masks.walked > 0 {
+				r.walkTrees(w, rs)
 			}
-			if !shuffled {
-				r.additiveRow(w, rs, out, wt, y)
-				continue
-			}
+			out := r.sums[u*lay.cols : (u+1)*lay.cols]
+			wt := r.rowTotals(rs, int(row), out)
 			if r.metric == MetricAUC { // AUC is computed over the sample after the pass
 				out[lay.denMetric] += wt
 			}
+			local := b0 + i
 			r.keepPerturbed(w, rs, int(row), local)
-			local++
-		}
-		if r.metric == MetricNDCG {
-			r.ndcgUnit(w, u, out, first)
+			if local+1 == first+len(r.units[u]) { // the unit's last row
+				if r.metric == MetricNDCG {
+					r.ndcgUnit(w, u, out, first)
+				}
+				u, first = u+1, local+1
+			}
 		}
 	}
 }
@@ -195,7 +259,7 @@ func (r *run) keepPerturbed(w *worker, rs *rowState, row, local int) {
 	np := r.nPert()
 	w.chunkBase[local] = rs.margin[0]
 	base := local * nf * np
-	donors := w.donors // askClasses found them
+	donors := rs.donors // askClasses found them
 	qw := rs.qw
 	for j := 0; j < nf; j++ {
 		s := w.chunkScores[base+j*np : base+(j+1)*np]
@@ -280,14 +344,14 @@ func (r *run) keepPerturbed(w *worker, rs *rowState, row, local int) {
 
 // askClasses sets, before a row's pass, the classes keepPerturbed will
 // ask of each numeric feature (rowState.qmark, .qrank), and finds each
-// shuffle's donor row (worker.donors).
-func (r *run) askClasses(w *worker, rs *rowState, row int) {
+// shuffle's donor row (rowState.donors).
+func (r *run) askClasses(rs *rowState, row int) {
 	nf := len(rs.x)
-	donors := w.donors[:0]
+	donors := rs.donors[:0]
 	for _, p := range r.perms {
 		donors = append(donors, r.rowClass[int(p[row])*nf:int(p[row]+1)*nf])
 	}
-	w.donors = donors
+	rs.donors = donors
 	for j := range r.vc {
 		vc := &r.vc[j]
 		if vc.categorical {
@@ -323,34 +387,7 @@ func (r *run) clearAsked(rs *rowState, j int) {
 // every feature's step function (only features met on the row's own paths
 // can move its leaves). Leaf-mask trees go first, then the walked ones.
 func (r *run) scoreRow(w *worker, rs *rowState, row int) {
-	e := r.e
-	for j := range rs.x {
-		rs.x[j] = r.cols[j][row]
-		rs.tests[j] = 0
-		rs.builders[j].start()
-		if r.rowClass != nil {
-			rs.cls[j] = r.rowClass[row*len(rs.x)+j]
-		} else {
-			rs.cls[j] = int32(r.vc[j].classOf(rs.x[j]))
-		}
-	}
-	copy(rs.margin, e.BaseMargin)
-	r.masks.rowTable(rs)
-	if !r.metric.additive() {
-		// the mask trees write their steps at the asked classes; the
-		// walked trees write step functions, which keepPerturbed asks too
-		// (b.used says whether they wrote any)
-		r.askClasses(w, rs, row)
-		for ti := range r.masks.trees {
-			if m := &r.masks.trees[ti]; m.groups0 >= 0 {
-				r.masks.scoreMaskQueries(&w.masks, rs, m)
-			}
-		}
-		if r.masks.walked > 0 {
-			r.walkTrees(w, rs)
-		}
-		return
-	}
+	r.startRow(rs, row)
 	for ti := range r.masks.trees {
 		if m := &r.masks.trees[ti]; m.groups0 >= 0 {
 			r.masks.scoreMaskTree(&w.masks, rs, m)
@@ -368,6 +405,23 @@ func (r *run) scoreRow(w *worker, rs *rowState, row int) {
 			b.finish()
 		}
 	}
+}
+
+// startRow loads one row into rs: values, classes, zero test counts, empty
+// builders, the base margin and its rows of the word-index tables.
+func (r *run) startRow(rs *rowState, row int) {
+	for j := range rs.x {
+		rs.x[j] = r.cols[j][row]
+		rs.tests[j] = 0
+		rs.builders[j].start()
+		if r.rowClass != nil {
+			rs.cls[j] = r.rowClass[row*len(rs.x)+j]
+		} else {
+			rs.cls[j] = int32(r.vc[j].classOf(rs.x[j]))
+		}
+	}
+	copy(rs.margin, r.e.BaseMargin)
+	r.masks.rowTable(rs)
 }
 
 // walkTrees adds one row's part of the trees that do not take the leaf-mask
