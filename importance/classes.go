@@ -25,8 +25,8 @@ type valueClasses struct {
 	thresholds  []float64 // numeric: sorted distinct thresholds
 	// numeric: the thresholds' orderKey values, for a branch-free search
 	thresholdKeys []int64
-	zeroMode    bool
-	nb          int // numeric bins = len(thresholds)+1
+	zeroMode      bool
+	nb            int // numeric bins = len(thresholds)+1
 	// categorical mode: class per distinct value (NaN separately)
 	values  []float64       // sorted distinct non-NaN values
 	valueOf map[float64]int // value -> class

@@ -57,7 +57,7 @@ type worker struct {
 	chunkBase   []float64
 	queries     []int32   // shuffled metrics: the classes asked of one step function
 	answers     []float64 // and its values there
-	run         []float64 // keepPerturbed: running sums over the asked classes
+	cumul       []float64 // keepPerturbed: running sums over the asked classes
 	ndcg        metrics.NDCGScratch
 	groupS      []float64
 	groupL      []float64
@@ -74,7 +74,7 @@ func (r *run) newWorker() *worker {
 		state:    make([]pathState, nf),
 		loss:     newRowLoss(r.metric, r.e),
 		answers:  make([]float64, 1+len(r.perms)),
-		run:      make([]float64, len(r.perms)+3),
+		cumul:    make([]float64, len(r.perms)+3),
 	}
 	rs := r.newRowState()
 	if !r.metric.additive() {
@@ -301,17 +301,17 @@ func (r *run) keepPerturbed(w *worker, rs *rowState, row, local int) {
 			acc := rs.qacc[j*qw : (j+1)*qw]
 			mo := int(r.markOff[j])
 			nb := int32(vc.nb)
-			run := w.run[:qw]
+			cum := w.cumul[:qw]
 			c := 0.0
-			for p := range run {
+			for p := range cum {
 				c += acc[p]
-				run[p] = c
+				cum[p] = c
 			}
 			for i, q := range qs {
 				switch {
 				case q < nb:
 					wi := mo + int(q>>6)
-					vals[i] += run[int(rs.qrank[wi])+bits.OnesCount64(rs.qmark[wi]&(1<<(q&63)-1))]
+					vals[i] += cum[int(rs.qrank[wi])+bits.OnesCount64(rs.qmark[wi]&(1<<(q&63)-1))]
 				case q == nb:
 					vals[i] += acc[qw-1]
 				}

@@ -61,7 +61,7 @@ type maskForest struct {
 	rowOff []int
 	rowLen int
 	refs   []maskWordRef
-	walked   int // trees that do not qualify (walked instead)
+	walked int // trees that do not qualify (walked instead)
 	// per group: its column in its feature's table, and its first cut
 	slotOf, cutsAt []int32
 }
