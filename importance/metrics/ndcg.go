@@ -201,18 +201,30 @@ func DCGGains(scores, gains []float64, k int, scratch *NDCGScratch) float64 {
 	}
 	items := slices.Grow(scratch.items[:0], n)[:n]
 	for i, s := range scores {
-		if s != s {
-			s = math.Inf(-1)
-		}
-		items[i] = rankedGain{score: s, gain: gains[i]}
+		items[i] = rankedGain{score: rankScore(s), gain: gains[i]}
 	}
 	scratch.items = items
 	sortDescending(items)
+	return runsDCG(items)
+}
+
+// rankScore is the score an item ranks by: NaN ranks last, as −Inf.
+func rankScore(s float64) float64 {
+	if s != s {
+		return math.Inf(-1)
+	}
+	return s
+}
+
+// runsDCG is the DCG of items in descending score order at positions
+// 0..len(items)-1, each run of tied scores sharing the mean gain of the run
+// at each of its positions.
+func runsDCG(items []rankedGain) float64 {
 	var dcg float64
-	for pos := 0; pos < n; {
+	for pos := 0; pos < len(items); {
 		end := pos + 1
 		sum := items[pos].gain
-		for end < n && items[end].score == items[pos].score {
+		for end < len(items) && items[end].score == items[pos].score {
 			sum += items[end].gain
 			end++
 		}
@@ -234,9 +246,7 @@ func DCGGains(scores, gains []float64, k int, scratch *NDCGScratch) float64 {
 func dcgTop(scores, gains []float64, k int, scratch *NDCGScratch) float64 {
 	top := slices.Grow(scratch.items[:0], k)[:0]
 	for i, s := range scores {
-		if s != s {
-			s = math.Inf(-1)
-		}
+		s = rankScore(s)
 		if len(top) == k {
 			if !(s > top[k-1].score) {
 				continue
@@ -252,34 +262,21 @@ func dcgTop(scores, gains []float64, k int, scratch *NDCGScratch) float64 {
 	}
 	scratch.items = top
 	cut := top[k-1].score
-	var dcg float64
-	pos := 0
-	for pos < k && top[pos].score > cut {
-		end := pos + 1
-		sum := top[pos].gain
-		for top[end].score == top[pos].score { // top[k-1] == cut stops it
-			sum += top[end].gain
-			end++
-		}
-		var d float64
-		for j := pos; j < end; j++ {
-			d += discount(j)
-		}
-		dcg += sum / float64(end-pos) * d
-		pos = end
+	// the items above the cut hold every item of their scores: whole runs
+	above := 0
+	for above < k && top[above].score > cut {
+		above++
 	}
+	dcg := runsDCG(top[:above])
 	tieSum, tieN := 0.0, 0
 	for i, s := range scores {
-		if s != s {
-			s = math.Inf(-1)
-		}
-		if s == cut {
+		if rankScore(s) == cut {
 			tieSum += gains[i]
 			tieN++
 		}
 	}
 	var d float64
-	for j := pos; j < k; j++ { // the tie reaches position k or beyond
+	for j := above; j < k; j++ { // the tie reaches position k or beyond
 		d += discount(j)
 	}
 	return dcg + tieSum/float64(tieN)*d
