@@ -387,21 +387,17 @@ func (mf *maskForest) rowTable(rs *rowState) {
 // scoreMaskTree adds one mask tree's part of a row: the margin, path usage
 // and the step-function pieces of every feature on the row's path.
 func (mf *maskForest) scoreMaskTree(sc *maskScratch, rs *rowState, m *maskTree) {
+	own, p0, p1 := mf.exitLeaf(sc, rs, m)
+	if p0 == p1 {
+		return
+	}
 	// the arrays in locals: the stores below could alias them otherwise,
 	// and the compiler would reload every header each iteration
 	groups := mf.groups[m.groups0:m.groups1]
 	allWords := mf.words
 	ng := len(groups)
 	pre, suf := sc.pre[:ng], sc.suf[:ng]
-	acc := groupWords(mf.refs[m.groups0:m.groups1], allWords, rs.wordIdx, pre, suf)
 	values := mf.leafValue[m.leaves0:]
-	ownLeaf := int(m.leaves0) + bits.TrailingZeros64(acc)
-	own := mf.leafValue[ownLeaf]
-	rs.margin[m.class] += own
-	p0, p1 := mf.leafPath[ownLeaf], mf.leafPath[ownLeaf+1]
-	if p0 == p1 {
-		return
-	}
 	allStarts, allKill := mf.starts, mf.kill
 	g0 := int(m.groups0)
 	tests, diffAll, markAll, missing := rs.tests, rs.diff, rs.mark, rs.missing
@@ -445,21 +441,17 @@ func (mf *maskForest) scoreMaskTree(sc *maskScratch, rs *rowState, m *maskTree) 
 // of bits, rowState.qmark and .qrank) rather than over all classes, so
 // nothing is left to sum over the classes afterwards.
 func (mf *maskForest) scoreMaskQueries(sc *maskScratch, rs *rowState, m *maskTree) {
+	own, p0, p1 := mf.exitLeaf(sc, rs, m)
+	if p0 == p1 {
+		return
+	}
 	// the arrays in locals: the stores below could alias them otherwise,
 	// and the compiler would reload every header each iteration
 	groups := mf.groups[m.groups0:m.groups1]
 	allWords := mf.words
 	ng := len(groups)
 	pre, suf := sc.pre[:ng], sc.suf[:ng]
-	acc := groupWords(mf.refs[m.groups0:m.groups1], allWords, rs.wordIdx, pre, suf)
 	values := mf.leafValue[m.leaves0:]
-	ownLeaf := int(m.leaves0) + bits.TrailingZeros64(acc)
-	own := mf.leafValue[ownLeaf]
-	rs.margin[m.class] += own
-	p0, p1 := mf.leafPath[ownLeaf], mf.leafPath[ownLeaf+1]
-	if p0 == p1 {
-		return
-	}
 	allStarts, allKill := mf.starts, mf.kill
 	g0 := int(m.groups0)
 	tests, qmark, qrank, qacc := rs.tests, rs.qmark, rs.qrank, rs.qacc
@@ -496,16 +488,18 @@ func (mf *maskForest) scoreMaskQueries(sc *maskScratch, rs *rowState, m *maskTre
 	}
 }
 
-// groupWords sets, for one row and tree, pre[g] to the AND of the words of
-// the groups before group g and suf[g] to that of the groups after it, and
-// returns the AND of all. A function of its own, not inlined, so that its
-// loops keep every value in a register (inlined into the caller, they
-// spilled to the stack).
+// exitLeaf runs one row through mask tree m: it adds the exit leaf's value
+// to the row's margin and returns that value and the range of the leaf's
+// path groups in paths, and leaves in sc, for every group g, the AND of the
+// words of the groups before it (pre[g]) and after it (suf[g]). Not
+// inlined: its loops keep every value in a register, where inlined into
+// the expansion they spilled to the stack.
 //
 //go:noinline
-func groupWords(refs []maskWordRef, words []uint64, wordIdx []uint8, pre, suf []uint64) uint64 {
+func (mf *maskForest) exitLeaf(sc *maskScratch, rs *rowState, m *maskTree) (own float64, p0, p1 int32) {
+	refs, words, wordIdx := mf.refs[m.groups0:m.groups1], mf.words, rs.wordIdx
+	pre, suf := sc.pre[:len(refs)], sc.suf[:len(refs)]
 	acc := ^uint64(0)
-	pre, suf = pre[:len(refs)], suf[:len(refs)]
 	for g, ref := range refs {
 		word := words[int(ref.words)+int(wordIdx[ref.col])]
 		pre[g] = acc
@@ -518,5 +512,8 @@ func groupWords(refs []maskWordRef, words []uint64, wordIdx []uint8, pre, suf []
 		suf[g] = after
 		after &= word
 	}
-	return acc
+	leaf := int(m.leaves0) + bits.TrailingZeros64(acc)
+	own = mf.leafValue[leaf]
+	rs.margin[m.class] += own
+	return own, mf.leafPath[leaf], mf.leafPath[leaf+1]
 }
