@@ -328,7 +328,6 @@ type run struct {
 	splits [][]nodeSplit
 	walk   [][]wnode
 	masks  *maskForest // leaf-mask form of the trees that qualify
-	missC  []int32     // per feature: its missing class
 	// per feature, offsets of its difference array and touched-bin bits in
 	// a row's flat arrays (rowState.diff, .mark); zero length if categorical
 	diffOff, markOff []int32
@@ -371,10 +370,8 @@ func newRun(e *forest.Ensemble, f *frame.Frame, cfg Config, metric Metric, k int
 	r.splits = compileSplits(e, r.vc)
 	r.walk = compileWalk(e, r.splits, r.vc)
 	r.masks = compileMasks(e, r.splits, r.vc, cfg.Workers)
-	r.missC = make([]int32, nf)
 	r.diffOff, r.markOff = make([]int32, nf+1), make([]int32, nf+1)
 	for j := range r.vc {
-		r.missC[j] = int32(r.vc[j].missingClass())
 		nd, nm := 0, 0
 		if !r.vc[j].categorical {
 			nd, nm = (r.vc[j].nb+1)*e.NumClass, (r.vc[j].nb+1+63)/64
