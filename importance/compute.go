@@ -221,7 +221,7 @@ func (r *run) chunkShuffled(w *worker, u0, u1 int) {
 		blk := rows[b0:min(b0+maskBlock, len(rows))]
 		for i, row := range blk {
 			r.startRow(w.block[i], int(row))
-			r.askClasses(w.block[i], int(row))
+			r.askClasses(w, w.block[i], int(row))
 		}
 		for ti := range r.masks.trees {
 			if m := &r.masks.trees[ti]; m.groups0 >= 0 {
@@ -259,7 +259,6 @@ func (r *run) keepPerturbed(w *worker, rs *rowState, row, local int) {
 	np := r.nPert()
 	w.chunkBase[local] = rs.margin[0]
 	base := local * nf * np
-	donors := rs.donors // askClasses found them
 	qw := rs.qw
 	for j := 0; j < nf; j++ {
 		s := w.chunkScores[base+j*np : base+(j+1)*np]
@@ -274,12 +273,7 @@ func (r *run) keepPerturbed(w *worker, rs *rowState, row, local int) {
 		sf := &b.sf
 		vc := &r.vc[j]
 		m, own := rs.margin[0], int32(rs.cls[j])
-		// the classes asked for: the median, then each shuffle's
-		qs := w.queries[:0]
-		qs = append(qs, int32(r.medianC[j]))
-		for _, d := range donors {
-			qs = append(qs, d[j])
-		}
+		qs := r.asked(w.queries, rs, j)
 		w.queries = qs
 		vals := w.answers[:len(qs)]
 		miss := 0.0
@@ -345,7 +339,7 @@ func (r *run) keepPerturbed(w *worker, rs *rowState, row, local int) {
 // askClasses sets, before a row's pass, the classes keepPerturbed will
 // ask of each numeric feature (rowState.qmark, .qrank), and finds each
 // shuffle's donor row (rowState.donors).
-func (r *run) askClasses(rs *rowState, row int) {
+func (r *run) askClasses(w *worker, rs *rowState, row int) {
 	nf := len(rs.x)
 	donors := rs.donors[:0]
 	for _, p := range r.perms {
@@ -359,11 +353,9 @@ func (r *run) askClasses(rs *rowState, row int) {
 		}
 		nb := int32(vc.nb)
 		q := rs.qmark[r.markOff[j]:r.markOff[j+1]]
-		if c := int32(r.medianC[j]); c < nb {
-			q[c>>6] |= 1 << (c & 63)
-		}
-		for _, d := range donors {
-			if c := d[j]; c < nb {
+		w.queries = r.asked(w.queries, rs, j)
+		for _, c := range w.queries {
+			if c < nb {
 				q[c>>6] |= 1 << (c & 63)
 			}
 		}
@@ -374,6 +366,17 @@ func (r *run) askClasses(rs *rowState, row int) {
 			n += int32(bits.OnesCount64(word))
 		}
 	}
+}
+
+// asked returns, in dst's space, the classes keepPerturbed asks of
+// feature j for the row: the median's, then each shuffle's (from
+// rowState.donors).
+func (r *run) asked(dst []int32, rs *rowState, j int) []int32 {
+	dst = append(dst[:0], int32(r.medianC[j]))
+	for _, d := range rs.donors {
+		dst = append(dst, d[j])
+	}
+	return dst
 }
 
 // clearAsked clears feature j's asked-class bits for the next row.
