@@ -386,9 +386,10 @@ func (r *run) clearAsked(rs *rowState, j int) {
 	}
 }
 
-// scoreRow runs one row through every tree: its margin, path usage and
-// every feature's step function (only features met on the row's own paths
-// can move its leaves). Leaf-mask trees go first, then the walked ones.
+// scoreRow runs one row through every tree for the additive metrics: its
+// margin, path usage and every feature's whole step function (only features
+// met on the row's own paths can move its leaves). Leaf-mask trees go first,
+// then the walked ones. The shuffled metrics go by blocks (chunkShuffled).
 func (r *run) scoreRow(w *worker, rs *rowState, row int) {
 	r.startRow(rs, row)
 	for ti := range r.masks.trees {
